@@ -1,0 +1,5 @@
+"""``python -m prismfab`` runs the command line."""
+
+from prismfab.cli import entry
+
+entry()

@@ -1,0 +1,1 @@
+"""One module per sub-command of ``prismfab`` (see ``prismfab.cli``)."""
