@@ -29,6 +29,7 @@ __all__ = [
     "Beam",
     "Coating",
     "CoatingType",
+    "DocumentInfo",
     "Face",
     "FaceRole",
     "Ghost",
@@ -288,6 +289,13 @@ class System:
             ("separation", 12.3, "mm"), ("entry incidence P1", 70.1, "deg").
         tuning: for adjustable systems, rows of (magnification, rotation of each prism in deg).
         warnings: solver warnings, plain sentences.
+        clear_apertures: per optical face, the clear aperture the sizing used:
+            (prism name, face label, width along the face, width along the height, centre along
+            the face from its start vertex, centre along the height from datum A), mm. Covers the
+            traced 1/e^2 footprint x margin over the band, the tuning range and the alignment
+            allowance.
+        aoi_ranges_deg: per optical face, (prism, face, nominal, min, max) chief-ray incidence
+            over the band and the tuning range, deg.
     """
 
     family: str
@@ -296,6 +304,8 @@ class System:
     facts: tuple[tuple[str, float, str], ...] = ()
     tuning: tuple[tuple[float, ...], ...] = ()
     warnings: tuple[str, ...] = ()
+    clear_apertures: tuple[tuple[str, str, float, float, float, float], ...] = ()
+    aoi_ranges_deg: tuple[tuple[str, str, float, float, float], ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -487,3 +497,36 @@ class Part:
     ray_path_mm: tuple[Vec2, ...] = ()
     polarization_note: str = ""
     notes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class DocumentInfo:
+    """Title-block and revision data of one drawing (ISO 7200 fields).
+
+    Args:
+        number: identification number (the part number), e.g. "FR-2041-01".
+        title: title of the part.
+        revision: revision index, e.g. "A".
+        date: date of issue, ISO 8601 ("2026-12-01").
+        company: legal owner.
+        drawn_by: creator.
+        checked_by: checker (optional in ISO 7200).
+        approved_by: approval person.
+        document_type: e.g. "Fabrication drawing".
+        sheet: segment/sheet number, e.g. "1/2".
+        revisions: revision table rows, oldest first: (revision, description, date, approved by).
+        scenario: project title, shown as the drawing's subtitle.
+    """
+
+    number: str
+    title: str
+    revision: str = "A"
+    date: str = ""
+    company: str = ""
+    drawn_by: str = ""
+    checked_by: str = ""
+    approved_by: str = ""
+    document_type: str = "Fabrication drawing"
+    sheet: str = "1/2"
+    revisions: tuple[tuple[str, str, str, str], ...] = ()
+    scenario: str = ""
