@@ -97,3 +97,48 @@ def sample_info() -> DocumentInfo:
         approved_by="C. Approver", revisions=(("A", "First issue", "2026-12-01", "C. Approver"),),
         scenario="Example beam expander",
     )
+
+
+def sample_solution():  # type: ignore[no-untyped-def]
+    """A complete Solution (hand-built System and Performance around ``sample_part``)."""
+    from prismfab.model import Beam, Ghost, Performance, Polarization, System, WavelengthResult
+    from prismfab.pipeline import Solution
+    from prismfab.spec.types import (
+        AnamorphicSingleDesign,
+        BeamSpec,
+        Family,
+        Project,
+        Spec,
+    )
+
+    part = sample_part()
+    prism = part.prism
+    beam = Beam(780.0, (775.0, 785.0), 1.2, 3.6, Polarization.P)
+    system = System(
+        family="anamorphic-single", prisms=(prism,), beam=beam,
+        facts=(("entry incidence P1", 56.5, "deg"), ("deviation", 23.2, "deg")),
+        clear_apertures=(("P1", "B", 6.0, 6.0, 5.0, 5.0), ("P1", "C", 6.0, 6.0, 6.6, 5.0)),
+        aoi_ranges_deg=(("P1", "B", 56.5, 56.2, 56.8), ("P1", "C", 0.0, -0.2, 0.2)),
+    )
+    results = tuple(
+        WavelengthResult(
+            wavelength_nm=wl, magnification_in_plane=1.511 + k * 1e-4,
+            magnification_out_of_plane=1.0, pointing_mrad=0.02 * k,
+            pointing_out_of_plane_mrad=0.0, lateral_offset_mm=0.4, transmission=0.955,
+            dispersion_rad_per_um=-0.02,
+            aoi_deg=(("P1", "B", 56.5), ("P1", "C", 0.0)), tir_margin_deg=(),
+            footprint_mm=(("P1", "B", 5.0, 2.2, 5.0, 3.6), ("P1", "C", 6.6, 1.8, 5.0, 3.6)),
+        )
+        for k, wl in ((0, 780.0), (-1, 775.0), (1, 785.0))
+    )
+    ray = tuple(prism.pose.apply((x, y, prism.height_mm / 2)) for x, y in part.ray_path_mm)
+    ghosts = (Ghost("P1", "C", 780.0, 0.0025, (0.0, 0.0, -1.0), 0.5, "source", True),)
+    perf = Performance(results=results, ghosts=ghosts, chief_ray_mm=ray)
+    spec = Spec(
+        project=Project(title="Example beam expander", drawing_prefix="EX-1001", quantity=10,
+                        company="Example Optics Lab"),
+        beam=BeamSpec(780.0, (775.0, 785.0), 1.2, 3.6),
+        design=AnamorphicSingleDesign(magnification=1.51, material="517642"),
+        family=Family.ANAMORPHIC_SINGLE,
+    )
+    return Solution(spec=spec, system=system, performance=perf, parts=(part,))
