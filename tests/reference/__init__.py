@@ -1,0 +1,1 @@
+"""Checks against the outside world; every assertion names its source beside it."""
