@@ -1,1 +1,22 @@
-"""prismfab.optics."""
+"""prismfab.optics: exact 3D ray trace and measurement of prism systems.
+
+Public API:
+
+* ``trace(system, rays, *, max_events=16, index_of=None) -> TraceResult``
+* ``RayBundle``, ``TraceResult``
+* ``sample_beam(beam, *, n_rays, wavelength_nm, seed=0) -> RayBundle``
+* ``measure(system, *, back_reflection_mrad=2.0, index_of=None) -> Performance``
+
+The functions are imported eagerly (numpy only) because the submodules ``trace`` and ``measure``
+share their names: importing them here binds the package attributes to the functions.
+Closed-form relations live in ``prismfab.optics.closed_forms``; prism solids in
+``prismfab.optics.solid``; test builders in ``prismfab.optics.testing``.
+"""
+
+from __future__ import annotations
+
+from prismfab.optics.trace import RayBundle, TraceResult, trace  # noqa: I001  (before measure)
+from prismfab.optics.beam import sample_beam
+from prismfab.optics.measure import measure
+
+__all__ = ["RayBundle", "TraceResult", "measure", "sample_beam", "trace"]

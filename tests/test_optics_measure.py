@@ -1,0 +1,108 @@
+"""measure(): Performance of hand-built systems, ghosts, footprints and the bench protocol."""
+
+from __future__ import annotations
+
+import json
+import math
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from prismfab.model import Performance, System
+from prismfab.optics import measure
+from prismfab.optics import closed_forms as cf
+from prismfab.optics.testing import constant_index, prism_chain
+
+IDX = constant_index(1.5)
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _pair(**kw: object) -> System:
+    phi, apex, _ = cf.normal_exit_prism(magnification=math.sqrt(3.0), n=1.5)
+    return prism_chain(apex_rad=[apex, apex], incidence_rad=[phi, phi], senses=[1, -1], index_of=IDX,
+                       diameter_mm=(1.0, 3.0), **kw)  # type: ignore[arg-type]
+
+
+def test_measure_shape_and_design_first() -> None:
+    """One result per beam wavelength, design first; chief path from lead-in to lead-out."""
+    perf = measure(_pair(band_nm=(620.0, 640.0)), index_of=IDX)
+    assert isinstance(perf, Performance)
+    assert [r.wavelength_nm for r in perf.results] == [632.8, 620.0, 640.0]
+    assert perf.design.magnification_out_of_plane == pytest.approx(1.0, abs=1e-12)
+    assert len(perf.chief_ray_mm) == 6  # lead-in, 4 hits, lead-out
+    assert perf.chief_ray_mm[0][2] < perf.chief_ray_mm[1][2]
+    assert [k[:2] for k in perf.design.aoi_deg] == [("P1", "A"), ("P1", "C"), ("P2", "C"), ("P2", "A")]
+
+
+def test_footprint_independent_of_pose_angle() -> None:
+    """Footprints are in face coordinates: the same solid at another pose angle gives the same numbers."""
+    a = _pair()
+    prisms = []
+    for p in a.prisms:
+        from prismfab.optics.solid import solid_of
+        from prismfab.optics.testing import prism_from_points
+        s = solid_of(p)
+        pts = [tuple(s.rotation @ [x, y, 0] + s.translation_mm)[::2] for x, y in p.vertices_mm]
+        prisms.append(prism_from_points(p.name, pts, [f.role for f in p.faces], angle_rad=-1.1))
+    b = System("test", tuple(prisms), a.beam)
+    fa = measure(a, index_of=IDX).design.footprint_mm
+    fb = measure(b, index_of=IDX).design.footprint_mm
+    for x, y in zip(fa, fb, strict=True):
+        assert x[:2] == y[:2]
+        assert x[3] == pytest.approx(y[3], abs=1e-9) and x[5] == pytest.approx(y[5], abs=1e-9)
+        assert x[4] == pytest.approx(5.0, abs=1e-9)  # beam plane is mid-height
+
+
+def test_footprint_centre_matches_hit_point() -> None:
+    """Footprint centre along the face = distance of the chief hit from the face's start vertex."""
+    system = _pair()
+    perf = measure(system, index_of=IDX)
+    p1 = system.prisms[0]
+    pts = np.asarray(perf.chief_ray_mm)
+    hit = np.asarray(p1.pose.rotation).T @ (pts[1] - np.asarray(p1.pose.translation_mm))
+    v0 = np.asarray(p1.vertices_mm[0])
+    centre = perf.design.footprint_mm[0][2]
+    assert centre == pytest.approx(float(np.linalg.norm(hit[:2] - v0)), abs=1e-9)
+    assert centre == pytest.approx(p1.face_length_mm(0) / 2, abs=1e-9)  # the builder hits mid-face
+
+
+def test_normal_faces_send_ghosts_to_source() -> None:
+    """Normal-incidence faces return a ghost into the laser; steep faces do not."""
+    perf = measure(_pair(), index_of=IDX, back_reflection_mrad=2.0)
+    by_face = {(g.prism, g.face): g for g in perf.ghosts}
+    assert by_face[("P1", "C")].destination == "source" and by_face[("P1", "C")].warning
+    assert by_face[("P1", "A")].destination != "source"
+    assert by_face[("P1", "A")].power_fraction == pytest.approx(
+        cf.fresnel_powers(cf.normal_exit_prism(magnification=math.sqrt(3.0), n=1.5)[0], 1.0, 1.5)[1],
+        abs=1e-12)
+    assert any("IEC 60825-1" in w for w in perf.warnings)
+
+
+def test_clipping_is_warned() -> None:
+    """A beam wider than the faces is reported as clipped."""
+    perf = measure(_pair().__class__("test", _pair().prisms, _wide_beam()), index_of=IDX)
+    assert any("clipped" in w for w in perf.warnings)
+
+
+def _wide_beam():  # type: ignore[no-untyped-def]
+    from dataclasses import replace
+    return replace(_pair().beam, diameter_in_plane_mm=30.0)
+
+
+def test_bench_runner_protocol(tmp_path: Path) -> None:
+    """bench/run.py discovers bench_*.py modules, prints a table and writes JSON."""
+    bench = tmp_path / "bench"
+    bench.mkdir()
+    (bench / "run.py").write_text((ROOT / "bench" / "run.py").read_text())
+    (bench / "bench_dummy.py").write_text(
+        "def run():\n    return [{'name': 'x', 'value': 2.0, 'unit': 's', 'floor': 1.0, 'ratio': 2.0}]\n")
+    out = tmp_path / "b.json"
+    proc = subprocess.run([sys.executable, str(bench / "run.py"), "dummy", "--json", str(out)],
+                          capture_output=True, text=True, check=True)
+    assert "x" in proc.stdout and "ratio" in proc.stdout
+    assert json.loads(out.read_text())["benchmarks"][0]["value"] == 2.0
+    bad = subprocess.run([sys.executable, str(bench / "run.py"), "nothere"], capture_output=True, text=True)
+    assert bad.returncode == 2
