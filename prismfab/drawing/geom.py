@@ -1,0 +1,95 @@
+"""Small plane-geometry helpers for the layout (paper or part frame, mm); no physics."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+__all__ = [
+    "add", "box_hits_segment", "boxes_overlap", "dist", "mul", "norm", "perp_cw", "rect_of_text",
+    "sub", "text_width_mm", "unit",
+]
+
+P2 = tuple[float, float]
+Rect = tuple[float, float, float, float]  # x0, y0, x1, y1
+
+def add(a: P2, b: P2) -> P2:
+    return a[0] + b[0], a[1] + b[1]
+
+
+def sub(a: P2, b: P2) -> P2:
+    return a[0] - b[0], a[1] - b[1]
+
+
+def mul(a: P2, k: float) -> P2:
+    return a[0] * k, a[1] * k
+
+
+def norm(a: P2) -> float:
+    return math.hypot(a[0], a[1])
+
+
+def dist(a: P2, b: P2) -> float:
+    return math.hypot(a[0] - b[0], a[1] - b[1])
+
+
+def unit(a: P2) -> P2:
+    n = norm(a)
+    return a[0] / n, a[1] / n
+
+
+def perp_cw(a: P2) -> P2:
+    """``a`` turned clockwise by 90° (outward normal of a counter-clockwise polygon edge)."""
+    return a[1], -a[0]
+
+
+def text_width_mm(text: str, height_mm: float, bold: bool = False) -> float:
+    """Advance width of one line of text on the sheet, mm (the font's real metrics)."""
+    from prismfab.drawing import fonts
+
+    return fonts.text_width_mm(text, height_mm, bold)
+
+
+def rect_of_text(centre: P2, text: str, height_mm: float, *, pad_mm: float = 0.6) -> Rect:
+    """Axis-aligned box around horizontal text centred at ``centre``."""
+    hw = text_width_mm(text, height_mm) / 2 + pad_mm
+    hh = height_mm / 2 + pad_mm
+    return centre[0] - hw, centre[1] - hh, centre[0] + hw, centre[1] + hh
+
+
+def boxes_overlap(a: Rect, b: Rect) -> bool:
+    return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
+
+
+def box_hits_segment(box: Rect, p: P2, q: P2) -> bool:
+    """True when segment p-q crosses or lies in the axis-aligned box (Liang-Barsky clip)."""
+    x0, y0, x1, y1 = box
+    dx, dy = q[0] - p[0], q[1] - p[1]
+    t0, t1 = 0.0, 1.0
+    for pk, qk in ((-dx, p[0] - x0), (dx, x1 - p[0]), (-dy, p[1] - y0), (dy, y1 - p[1])):
+        if abs(pk) < 1e-12:
+            if qk < 0:
+                return False
+            continue
+        t = qk / pk
+        if pk < 0:
+            t0 = max(t0, t)
+        else:
+            t1 = min(t1, t)
+        if t0 > t1:
+            return False
+    return True
+
+
+def polygon_centroid(points: Sequence[P2]) -> P2:
+    """Area centroid of a simple polygon."""
+    a = cx = cy = 0.0
+    n = len(points)
+    for i in range(n):
+        x0, y0 = points[i]
+        x1, y1 = points[(i + 1) % n]
+        c = x0 * y1 - x1 * y0
+        a += c
+        cx += (x0 + x1) * c
+        cy += (y0 + y1) * c
+    return cx / (3 * a), cy / (3 * a)

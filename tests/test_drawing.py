@@ -1,0 +1,355 @@
+"""Fabrication drawing: sheet model, ISO frame and tables, DXF read-back."""
+
+from __future__ import annotations
+
+import math
+import re
+from pathlib import Path
+
+import pytest
+
+from prismfab.drawing import dims, fmt, iso2768, layout_part
+from prismfab.drawing.frame import grid_fields, grid_letters
+from prismfab.drawing.layout import ISO_5455_SCALES
+from prismfab.drawing.sheet import AlignedDim, AngularDim, Leader, LinearDim, Sheet, Solid, Table, Text
+from prismfab.drawing.template import load_template
+from prismfab.errors import SpecError
+from tests.drawing_parts import dispersing_prism, fold_prism
+from tests.fixtures import sample_info, sample_part
+
+RENDER_DIR = Path(__file__).parent / "_render"
+PARTS = {"brewster": sample_part, "dispersing": dispersing_prism, "fold": fold_prism}
+
+
+@pytest.fixture(scope="module")
+def sheets() -> dict[str, Sheet]:
+    out = {name: layout_part(make(), sample_info()) for name, make in PARTS.items()}
+    out["brewster-a4"] = layout_part(sample_part(), sample_info(), template="a4-landscape")
+    out["fold-third"] = layout_part(fold_prism(), sample_info(), projection="third-angle")
+    return out
+
+
+# ---- ISO 2768-1 general tolerances (fabrication.md section 11, rows 1-12) ---------------------
+
+@pytest.mark.parametrize(("nominal", "cls", "expected"), [
+    (20.0, "m", 0.2),   # ISO 2768-1:1989 Table 1 (check value 1)
+    (20.0, "f", 0.1),   # ISO 2768-1 Table 1 (check value 2)
+    (20.0, "c", 0.5),   # ISO 2768-1 Table 1 (check value 3)
+    (20.0, "v", 1.0),   # ISO 2768-1 Table 1 (check value 4)
+    (30.0, "m", 0.2),   # ISO 2768-1 Table 1, "over 6 up to 30" includes 30 (check value 5)
+    (30.5, "m", 0.3),   # ISO 2768-1 Table 1 (check value 5)
+    (150.0, "m", 0.5),  # ISO 2768-1 Table 1 (check value 6)
+    (2.0, "v", None),   # ISO 2768-1 Table 1: no class v value below 3 mm (check value 7)
+    (2.0, "c", 0.2),    # ISO 2768-1 Table 1: 0.2, not DIN 7168's 0.15 (check value 8)
+])
+def test_iso2768_linear(nominal: float, cls: str, expected: float | None) -> None:
+    """Linear general tolerances match ISO 2768-1 Table 1."""
+    assert expected == iso2768.linear_tolerance_mm(nominal, cls)
+
+
+def test_iso2768_chamfer_and_angular() -> None:
+    """Chamfer heights (Table 2) and angles by shorter leg (Table 3) match ISO 2768-1."""
+    # ISO 2768-1 Table 2, class m (check value 9)
+    assert [0.2, 0.5, 1.0] == [iso2768.chamfer_tolerance_mm(h, "m") for h in (2.0, 5.0, 10.0)]
+    # ISO 2768-1 Table 3, class m, shorter leg 25 mm: 0°30' (check value 10)
+    assert 30.0 == iso2768.angular_tolerance_arcmin(25.0, "m")
+    # ISO 2768-1 Table 3, class m: 1°, 0°20', 0°10', 0°5' (check value 11)
+    assert [60.0, 20.0, 10.0, 5.0] == [iso2768.angular_tolerance_arcmin(x, "m")
+                                       for x in (8.0, 100.0, 200.0, 500.0)]
+    # ISO 2768-1 Table 3, classes c and v at 8 mm: 1°30', 3° (check value 12)
+    assert (90.0, 180.0) == (iso2768.angular_tolerance_arcmin(8.0, "c"),
+                             iso2768.angular_tolerance_arcmin(8.0, "v"))
+    with pytest.raises(SpecError, match="ISO 2768-1"):
+        iso2768.linear_tolerance_mm(10.0, "x")
+
+
+# ---- angle and length text ---------------------------------------------------------------------
+
+def test_angle_text_rounds_from_the_design_value() -> None:
+    """DMS text rounds (never truncates) and drops zero fields; arcsec tolerance keeps seconds."""
+    assert "33°29′47″ ±60″" == fmt.angle_text(33 + 29 / 60 + 46.6 / 3600, 60.0)
+    assert "36°08′ ±30″" == fmt.angle_text(36 + 8 / 60, 30.0)
+    assert "60° ±3′" == fmt.angle_text(59.99999999, 180.0).replace("±180″", "±3′")
+    assert "60°" == fmt.dms(math.degrees(math.acos(0.5)))  # 59.99999999999999 must not read 59°59′
+    assert "0°30′" == fmt.dms(0.5)  # sub-degree angles keep the leading 0° (ISO 129-1, from memory)
+    assert "±10′" == fmt.angle_tolerance_text(600.0)
+    assert "12.00 ±0.10" == fmt.length_text(12.0, 0.1, decimals=2)
+    assert "7,94" == fmt.length_text(7.94, decimal_comma=True)
+
+
+# ---- sheet, frame, grid, title block -----------------------------------------------------------
+
+def test_sheet_sizes_and_frames() -> None:
+    """A3/A4 sizes (ISO 216) and the 20/10 mm bordered frame (ISO 5457)."""
+    a3, a4 = load_template("a3-landscape"), load_template("a4-landscape")
+    assert (420.0, 297.0) == (a3.width_mm, a3.height_mm)  # ISO 216 A3 (check value 13)
+    assert (297.0, 210.0) == (a4.width_mm, a4.height_mm)  # ISO 216 A4 (check value 13)
+    assert (390.0, 277.0) == a3.frame_box[2:]  # ISO 5457:1999 frame on A3 landscape (check value 14)
+    assert (20.0, 10.0, 10.0, 10.0) == (a3.border_left_mm, a3.border_right_mm, a3.border_top_mm,
+                                        a3.border_bottom_mm)  # ISO 5457 borders, from memory
+    assert 180.0 == a3.title_width_mm == a4.title_width_mm  # ISO 7200 block width (check value 19)
+
+
+@pytest.mark.parametrize(("name", "long_side", "short_side"), [
+    ("a3-landscape", 8, 6),  # ISO 5457:1999 grid, A3 (check value 15)
+    ("a4-landscape", 6, 4),  # ISO 5457:1999 grid, A4 (check value 15)
+])
+def test_grid_zone_counts(name: str, long_side: int, short_side: int) -> None:
+    """50 mm grid fields counted from the centring lines give the ISO 5457 field counts."""
+    t = load_template(name)
+    x0, y0, w, h = t.frame_box
+    cols = grid_fields(x0, x0 + w, t.width_mm / 2, t.grid_field_mm)
+    rows = grid_fields(y0, y0 + h, t.height_mm / 2, t.grid_field_mm)
+    assert (long_side, short_side) == (len(cols) - 1, len(rows) - 1)
+
+
+def test_grid_letters_skip_i_and_o() -> None:
+    """Eight rows are A to H; a ninth would be J (ISO 5457, check value 16)."""
+    assert ("A", "B", "C", "D", "E", "F", "G", "H") == grid_letters(8)
+    assert "J" == grid_letters(9)[-1]
+    assert "O" not in grid_letters(20)
+
+
+def test_title_block_has_the_iso7200_mandatory_fields(sheets: dict[str, Sheet]) -> None:
+    """The 8 mandatory ISO 7200 fields are labelled and filled (check value 17)."""
+    texts = set(sheets["brewster"].texts())
+    mandatory = {"Legal owner": "Example Optics Lab", "Identification number": "EX-1001-01",
+                 "Date of issue": "2026-12-01", "Sheet": "1/2", "Title": "Brewster expander prism",
+                 "Approval person": "C. Approver", "Creator": "A. Drafter",
+                 "Document type": "Fabrication drawing"}
+    for label, value in mandatory.items():
+        assert label in texts
+        assert value in texts
+    assert {"First issue", "A"} <= texts  # revision table row
+
+
+def test_scale_is_from_iso5455_series(sheets: dict[str, Sheet]) -> None:
+    """Every sheet's scale is one of the ISO 5455 scales and is printed in the title block."""
+    allowed = {f"{a}:{b}" for a, b in ISO_5455_SCALES}
+    for sheet in sheets.values():
+        assert sheet.scale_text in allowed
+        assert sheet.scale_text in sheet.texts()
+
+
+def test_general_notes(sheets: dict[str, Sheet]) -> None:
+    """Units, ISO 8015, ISO 2768 for non-optical features, fine ground, handling, laser safety."""
+    text = " ".join(sheets["brewster"].texts())
+    for phrase in ("millimetres", "ISO 8015", "ISO 2768-mK", "fine ground", "ground faces only",
+                   "sharp edges", "gloves", "IEC 60825-1", "ANSI Z136.1", "laser safety officer",
+                   "back reflections", "ray path for reference", "Pyramidal error", "≤ 60″"):
+        assert phrase in text, phrase
+
+
+# ISO 10110 indications, syntax per fabrication.md section 1 (parts 2-4 material, 5 form, 7 imperfections)
+ISO_10110 = {
+    "ISO 10110-5 surface form": re.compile(r"^3/ ?(\d+(\.\d+)?|-)\((\d+(\.\d+)?)(/\d+(\.\d+)?)?\); λ = \d+(\.\d+)? nm$"),
+    "ISO 10110-7 surface imperfections": re.compile(
+        r"^5/ ?\d+ ?× ?\d+(\.\d+)?(; ?C ?\d+ ?× ?\d+(\.\d+)?)?(; ?L ?\d+ ?× ?\d+(\.\d+)?)?(; ?E ?\d+(\.\d+)?)?$"),
+    "ISO 10110-2 stress birefringence": re.compile(r"^0/\d+$"),
+    "ISO 10110-3 bubbles": re.compile(r"^1/\d+ ?× ?\d+(\.\d+)?$"),
+    "ISO 10110-4 inhomogeneity and striae": re.compile(r"^2/\d;\d$"),
+}
+
+
+def _cells(sheet: Sheet) -> list[str]:
+    return [ln for t in sheet.of_type(Table) for c in t.cells for ln in c.lines]  # type: ignore[attr-defined]
+
+
+def test_iso10110_indications_in_the_face_table(sheets: dict[str, Sheet]) -> None:
+    """Every ISO 10110 code of the part stands in the face table and passes the syntax check."""
+    part = sample_part()
+    joined = " ".join(_cells(sheets["brewster"]))
+    codes = [f.surface_form for f in part.faces if f.polished]
+    codes += [f.surface_imperfections for f in part.faces if f.polished]
+    codes += list(part.material_indications)
+    for code in codes:
+        assert code in joined
+        assert any(rx.match(code) for rx in ISO_10110.values()), code
+    assert "nd = 1.5168 ±0.0005" in joined and "νd = 64.17 ±0.8 %" in joined
+    assert "uncoated: Brewster" in joined and "fine ground" in joined
+
+
+# ---- dimensions --------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("name", ["brewster", "dispersing", "fold", "brewster-a4", "fold-third"])
+def test_dimensions_measure_the_model(sheets: dict[str, Sheet], name: str) -> None:
+    """Paper geometry / scale equals the stated model value, for every dimension."""
+    sheet = sheets[name]
+    for d in sheet.of_type(AlignedDim) + sheet.of_type(LinearDim):
+        a, b = d.dim_line()  # type: ignore[union-attr]
+        assert math.dist(a, b) / sheet.scale == pytest.approx(d.measured_mm, abs=1e-9)  # type: ignore[union-attr]
+    angles = sheet.of_type(AngularDim)
+    part = {"brewster": sample_part, "brewster-a4": sample_part, "dispersing": dispersing_prism,
+            "fold": fold_prism, "fold-third": fold_prism}[name]()
+    n = len(part.prism.vertices_mm)
+    assert n == len(angles)
+    for d in angles:
+        a1, a2 = d.arc_deg()  # type: ignore[union-attr]
+        assert (a2 - a1) % 360 == pytest.approx(d.measured_deg, abs=1e-9)  # type: ignore[union-attr]
+    assert pytest.approx(180.0 * (n - 2), abs=1e-9) == sum(d.measured_deg for d in angles)  # type: ignore[union-attr]
+
+
+def test_section_is_defined_once(sheets: dict[str, Sheet]) -> None:
+    """2n-3 defining dimensions; the rest auxiliary in parentheses (ISO 129-1, from memory)."""
+    part = sample_part()
+    plan = dims.plan_dimensions(part)
+    n = len(part.prism.vertices_mm)
+    defining = sum(k != "auxiliary" for k in plan.angles) + sum(k == "size" for k in plan.lengths)
+    assert 2 * n - 3 == defining
+    angles = sheets["brewster"].of_type(AngularDim)
+    assert {"90° ±60″", "33°29′38″ ±60″", "(56°30′22″)"} == {a.text for a in angles}  # type: ignore[union-attr]
+    for d in sheets["brewster"].of_type(AlignedDim) + angles:
+        assert d.auxiliary == d.text.startswith("(")  # type: ignore[union-attr]
+
+
+def test_one_text_height_for_dimensions(sheets: dict[str, Sheet]) -> None:
+    """ISO 129-1: one character height for all dimensions."""
+    assert 3.5 == sheets["brewster"].dimension_text_mm
+
+
+def test_views_follow_the_projection_method(sheets: dict[str, Sheet]) -> None:
+    """First angle: the view from the right stands left of the principal section; third: right."""
+    def side_centre(sheet: Sheet) -> tuple[float, float]:
+        outline = [e for e in sheet.entities if getattr(e, "layer", None) is not None
+                   and e.layer.name == "OUTLINE" and hasattr(e, "points")]
+        xs = [sum(p[0] for p in e.points) / len(e.points) for e in outline]  # type: ignore[attr-defined]
+        return xs[1], xs[0]  # side view, main view
+
+    side, main = side_centre(sheets["fold"])
+    assert side < main
+    side, main = side_centre(sheets["fold-third"])
+    assert side > main
+
+
+def test_projection_symbol_orientation(sheets: dict[str, Sheet]) -> None:
+    """ISO 5456-2: first angle puts the circles right of the frustum, third angle left (row 35)."""
+    from prismfab.drawing.frame import projection_symbol
+    from prismfab.drawing.sheet import Circle, Polyline
+
+    for projection, circles_right in (("first-angle", True), ("third-angle", False)):
+        ents = projection_symbol((0.0, 0.0), projection)
+        trap = next(e for e in ents if isinstance(e, Polyline))
+        circle = next(e for e in ents if isinstance(e, Circle))
+        small_end_x = trap.points[0][0]
+        large_end_x = trap.points[1][0]
+        assert small_end_x < large_end_x  # small end on the left in both symbols
+        assert (circle.centre[0] > large_end_x) is circles_right
+
+
+def test_datums_labels_and_callouts(sheets: dict[str, Sheet]) -> None:
+    """Datums A and B with triangles, face letters, bevel and sharp-edge callouts, ray label."""
+    sheet = sheets["brewster"]
+    texts = sheet.texts()
+    assert {"A", "B", "C"} <= set(texts)
+    assert len(sheet.of_type(Solid)) >= 2
+    leaders = [" ".join(e.lines) for e in sheet.of_type(Leader)]  # type: ignore[union-attr]
+    assert any("bevel 0.3 max × 45°" in t for t in leaders)
+    assert any("edge B/C sharp" in t for t in leaders)
+    assert any("ray path for reference" in t for t in leaders)
+
+
+def test_texts_stay_inside_the_sheet(sheets: dict[str, Sheet]) -> None:
+    """Nothing is placed off the paper."""
+    for sheet in sheets.values():
+        for t in sheet.of_type(Text):
+            x, y = t.position  # type: ignore[union-attr]
+            assert 0 <= x <= sheet.width_mm and 0 <= y <= sheet.height_mm
+
+
+def test_bad_template_and_projection() -> None:
+    """Unknown templates and projections are typed errors naming the field."""
+    with pytest.raises(SpecError, match="sheet.template"):
+        layout_part(sample_part(), sample_info(), template="b5-portrait")
+    with pytest.raises(SpecError, match="sheet.projection"):
+        layout_part(sample_part(), sample_info(), projection="second-angle")
+
+
+def test_user_template_file(tmp_path: Path) -> None:
+    """A user's own template file is accepted; a broken one names the field."""
+    src = Path(__file__).parents[1] / "templates" / "sheets" / "a3-landscape.yaml"
+    mine = tmp_path / "mine.yaml"
+    mine.write_text(src.read_text(encoding="utf-8").replace("name: a3-landscape", "name: mine"),
+                    encoding="utf-8")
+    assert "mine" == layout_part(sample_part(), sample_info(), template=str(mine)).template
+    mine.write_text("name: broken\n", encoding="utf-8")
+    with pytest.raises(SpecError, match="sheet.template.paper"):
+        load_template(str(mine))
+
+
+# ---- DXF ---------------------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def dxf_docs(sheets: dict[str, Sheet]) -> dict[str, object]:
+    from prismfab.drawing import dxf
+
+    return {name: dxf.render(sheets[name]) for name in ("brewster", "dispersing", "fold", "brewster-a4")}
+
+
+@pytest.mark.parametrize("name", ["brewster", "dispersing", "fold", "brewster-a4"])
+def test_dxf_reads_back(tmp_path: Path, sheets: dict[str, Sheet], dxf_docs: dict[str, object],
+                        name: str) -> None:
+    """Audit clean; every DIMENSION measures the model value; header and styles in millimetres."""
+    import ezdxf
+
+    from prismfab.drawing import dxf
+
+    path = dxf.save(dxf_docs[name], tmp_path / f"{name}.dxf")
+    doc = ezdxf.readfile(path)
+    assert not doc.audit().has_errors
+    assert (4, 1, 1.0) == (doc.header["$INSUNITS"], doc.header["$MEASUREMENT"],
+                           doc.header["$DIMLFAC"])
+    assert "PF-MM" == doc.header["$DIMSTYLE"]
+    assert 3.5 == doc.dimstyles.get("PF-MM").dxf.dimtxt
+    for name_lt in ("HIDDEN", "CENTER", "PHANTOM", "DASHED"):
+        assert name_lt in doc.linetypes
+    assert (12.0, 1.5, 0.25, 1.5) == doc.linetypes.get("CENTER").simplified_line_pattern()  # mm
+    sheet = sheets[name]
+    expected = sorted([round(d.measured_mm, 6) for d in sheet.of_type(AlignedDim) + sheet.of_type(LinearDim)]  # type: ignore[union-attr]
+                      + [round(d.measured_deg, 6) for d in sheet.of_type(AngularDim)])  # type: ignore[union-attr]
+    got = []
+    for dim in doc.modelspace().query("DIMENSION"):
+        assert dim.dxf.geometry in doc.blocks  # rendered
+        m = dim.get_measurement()
+        if dim.dimtype in (2, 5):  # angular: degrees
+            got.append(round(float(m), 6))
+        else:
+            lfac = dim.override().get("dimlfac", 1.0)  # 1/scale: paper length -> part length
+            got.append(round(float(m) * lfac, 6))
+        assert dim.dxf.text and "<>" not in dim.dxf.text  # explicit prismfab text
+    assert expected == sorted(got)
+    assert 0 == len(doc.modelspace().query("MLEADER"))
+    assert len(doc.modelspace().query("LEADER")) == len(sheet.of_type(Leader))
+
+
+def test_dxf_is_byte_identical(tmp_path: Path, dxf_docs: dict[str, object]) -> None:
+    """Two saves of a fresh render give the same bytes."""
+    from prismfab.drawing import dxf
+
+    a = dxf.save(dxf.render(layout_part(sample_part(), sample_info())), tmp_path / "a.dxf")
+    b = dxf.save(dxf.render(layout_part(sample_part(), sample_info())), tmp_path / "b.dxf")
+    assert a.read_bytes() == b.read_bytes()
+
+
+def test_dxf_save_reports_unwritable_folder(tmp_path: Path, dxf_docs: dict[str, object]) -> None:
+    """A missing folder is an OutputError and leaves nothing behind."""
+    from prismfab.drawing import dxf
+    from prismfab.errors import OutputError
+
+    with pytest.raises(OutputError, match="cannot write the drawing"):
+        dxf.save(dxf_docs["brewster"], tmp_path / "missing" / "x.dxf")
+
+
+def test_dxf_renders_to_png(dxf_docs: dict[str, object], sheets: dict[str, Sheet]) -> None:
+    """Each DXF modelspace renders with ezdxf's drawing add-on (PNG for a person to look at)."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from ezdxf.addons.drawing import matplotlib as draw
+
+    RENDER_DIR.mkdir(exist_ok=True)
+    for name, doc in dxf_docs.items():
+        out = RENDER_DIR / f"drawing-{name}.png"
+        sheet = sheets[name]
+        draw.qsave(doc.modelspace(), str(out), dpi=90, bg="#FFFFFF",  # type: ignore[attr-defined]
+                   size_inches=(sheet.width_mm / 25.4, sheet.height_mm / 25.4))
+        assert out.stat().st_size > 20_000
