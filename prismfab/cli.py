@@ -22,7 +22,6 @@ import argparse
 import importlib
 import os
 import sys
-import textwrap
 import traceback
 
 from prismfab import __version__
@@ -87,7 +86,8 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def _paragraph(text: str) -> str:
-    return "\n".join(textwrap.wrap(text, width=100)) + "\n"
+    """One paragraph: a single line (terminals wrap it), whitespace folded."""
+    return " ".join(text.split()) + "\n"
 
 
 def exit_code_for(err: BaseException) -> int:

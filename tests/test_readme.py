@@ -11,7 +11,7 @@ ROOT = Path(__file__).resolve().parents[1]
 def _readme_commands() -> list[str]:
     text = (ROOT / "README.md").read_text(encoding="utf-8")
     section = text.split("## Two commands", 1)[1].split("\n## ", 1)[0]
-    return re.findall(r"```\n(.+?)\n```", section)
+    return [c.strip() for c in re.findall(r"```\n(.+?)\n\s*```", section)]
 
 
 def test_readme_has_exactly_two_commands() -> None:
