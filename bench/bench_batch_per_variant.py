@@ -1,0 +1,48 @@
+"""``prismfab batch`` of N demo variants on 2 worker processes: seconds per variant, amortised.
+
+The demo spec's magnification is swept over N values (``PRISMFAB_BENCH_VARIANTS``, default 16,
+about a minute on two cores); the whole command's wall time (start-up, imports in each worker,
+solving, every package file) divided by N. Goal: <= 0.5 s per variant.
+
+Protocol (bench/run.py): ``run() -> list[dict]`` with name, value, unit, goal.
+"""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "templates" / "specs" / "anamorphic-pair.yaml"
+GOAL_S = 0.5
+
+
+def _sweep(n: int) -> str:
+    step = 1.5 / max(n - 1, 1)
+    return ",".join(f"{2.5 + i * step:.4f}" for i in range(n))
+
+
+def run() -> list[dict]:
+    """Amortised seconds per built variant (and per solved-only variant)."""
+    n = int(os.environ.get("PRISMFAB_BENCH_VARIANTS", "16"))
+    rows = []
+    for mode, extra in (("build", []), ("solve only", ["--solve-only"])):
+        with tempfile.TemporaryDirectory() as tmp:
+            cmd = [sys.executable, "-m", "prismfab", "batch", str(DEMO), "-j", "2", "-o", tmp,
+                   "--vary", f"design.magnification={_sweep(n)}", *extra]
+            t0 = time.perf_counter()
+            proc = subprocess.run(cmd, capture_output=True, text=True, cwd=ROOT, check=False)
+            wall = time.perf_counter() - t0
+        rows.append({"name": f"batch {mode}: {n} demo variants, 2 workers, per variant",
+                     "value": round(wall / n, 3), "unit": "s", "goal": f"<= {GOAL_S} s",
+                     "ok": proc.returncode == 0, "total_s": round(wall, 2)})
+    return rows
+
+
+if __name__ == "__main__":
+    for row in run():
+        print(row)
