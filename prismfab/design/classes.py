@@ -200,7 +200,8 @@ def coating_text(coating: Coating, *, role: FaceRole, band_nm: tuple[float, floa
         nom, amin, amax = aoi_deg
         inside = role in (FaceRole.EXIT, FaceRole.TIR, FaceRole.MIRROR)
         medium = "in glass" if inside else "in air"
-        aoi = f"AOI {f(nom)}° ({f(amin)}° to {f(amax)}°) {medium}"
+        spread = f" ({f(amin)}° to {f(amax)}°)" if abs(amax - amin) >= 0.05 else ""
+        aoi = f"AOI {f(nom)}°{spread} {medium}"
         if inside and role is FaceRole.EXIT:
             s = min(1.0, n_glass * math.sin(math.radians(abs(nom))))
             aoi += f", {f(math.degrees(math.asin(s)))}° in air"

@@ -285,12 +285,25 @@ def cost_index(spec: Spec, part: Part, tags: dict[str, str], tightest: FaceFormR
     return round(base * size * sharp * min(1.3, 1.1**oblique), 2)
 
 
+_REQUIREMENT_WORDS = {
+    "pointing_mrad": "the pointing requirement",
+    "magnification_pct": "the magnification requirement",
+    "offset_mm": "the lateral-offset requirement",
+}
+
+
+def _requirement_words(name: str) -> str:
+    """A requirement's spec field name in words."""
+    return _REQUIREMENT_WORDS.get(name, name)
+
+
 def _part_driving(rows: list[YieldRow]) -> str:
     bound = [r for r in rows if r.looser_yield is not None]
     if not bound:
         return "no requirement binds: the loosest standard classes meet the requirements"
     r = min(bound, key=lambda r: r.looser_yield)  # type: ignore[arg-type,return-value]
-    req = max(r.looser_failing, key=lambda x: x[1])[0] if r.looser_failing else "yield"
+    req = _requirement_words(max(r.looser_failing, key=lambda x: x[1])[0]
+                             if r.looser_failing else "yield")
     return f"{r.quantity} (one class looser: {r.looser_yield:.1%} yield, limited by {req})"
 
 
@@ -299,7 +312,8 @@ def _driving(rows: list[YieldRow], result) -> str:  # type: ignore[no-untyped-de
     if not bound:
         return "no requirement binds: the loosest standard classes meet the requirements"
     r = min(bound, key=lambda r: r.looser_yield)  # type: ignore[arg-type,return-value]
-    req = max(r.looser_failing, key=lambda x: x[1])[0] if r.looser_failing else "yield"
+    req = _requirement_words(max(r.looser_failing, key=lambda x: x[1])[0]
+                             if r.looser_failing else "yield")
     return (f"{r.part} {r.quantity} ±{C.fmt_number(r.value)} {r.unit}".rstrip()
             + f": one class looser gives {r.looser_yield:.1%}, limited by {req}")
 

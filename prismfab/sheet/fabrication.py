@@ -102,15 +102,14 @@ def _material_lines(part: Part) -> list[str]:
 
 def _tolerance_rows(part: Part) -> list[list[str]]:
     tol = part.tolerances
-    power, irregularity = tol.surface_form_fringes
     rows = [
         ["Quantity", "Tolerance"],
         ["Functional angles", f"± {tol.angle_arcsec:.0f}″"],
         ["Pyramidal error (any optical face)", f"≤ {tol.pyramidal_arcsec:.0f}″"],
         ["Face lengths", f"± {tol.length_mm:.2f} mm"],
         ["Height", f"± {tol.height_mm:.2f} mm"],
-        ["Surface form (power / irregularity)",
-         f"{power:g} / {irregularity:g} fringes at λ = {tol.test_wavelength_nm:g} nm"],
+        ["Surface form", "per polished face, as its 3/ indication in section 1 "
+         f"(fringes at λ = {tol.test_wavelength_nm:g} nm)"],
         ["Protective bevels", f"{part.bevel_mm:.2f} mm face width × 45° (max)"],
     ]
     return rows
