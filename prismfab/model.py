@@ -296,6 +296,11 @@ class System:
             allowance.
         aoi_ranges_deg: per optical face, (prism, face, nominal, min, max) chief-ray incidence
             over the band and the tuning range, deg.
+        materials_file: the user material catalogue the prism materials are looked up in (the
+            spec's ``materials_file``), or "" for the shipped catalogue only.
+        tuning_columns: what each column of the ``tuning`` rows holds, with its unit, e.g.
+            ("relative rotation of the wedges (deg)", "pair deviation (deg)") for a wedge pair;
+            empty = the anamorphic convention (magnification, rotation of each prism in deg).
     """
 
     family: str
@@ -306,6 +311,8 @@ class System:
     warnings: tuple[str, ...] = ()
     clear_apertures: tuple[tuple[str, str, float, float, float, float], ...] = ()
     aoi_ranges_deg: tuple[tuple[str, str, float, float, float], ...] = ()
+    materials_file: str = ""
+    tuning_columns: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)

@@ -6,12 +6,13 @@ import json
 import math
 import subprocess
 import sys
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
 import pytest
 
-from prismfab.model import Performance, System
+from prismfab.model import Coating, CoatingType, Performance, System
 from prismfab.optics import measure
 from prismfab.optics import closed_forms as cf
 from prismfab.optics.testing import constant_index, prism_chain
@@ -106,3 +107,24 @@ def test_bench_runner_protocol(tmp_path: Path) -> None:
     assert json.loads(out.read_text())["benchmarks"][0]["value"] == 2.0
     bad = subprocess.run([sys.executable, str(bench / "run.py"), "nothere"], capture_output=True, text=True)
     assert bad.returncode == 2
+
+
+def test_antireflection_faces_in_transmission_and_ghosts() -> None:
+    """AR-coated normal faces: transmission and ghost power use the coating's reflectance limit."""
+    r_max = 0.25  # percent
+    base = _pair()
+    ar = Coating(CoatingType.ANTIREFLECTION, reflectance_max_pct=r_max)
+    exits = {"P1": "C", "P2": "A"}  # the normal-incidence exit faces (see the AOI order above)
+    prisms = tuple(replace(p, faces=tuple(replace(f, coating=ar) if f.label == exits[p.name] else f
+                                          for f in p.faces)) for p in base.prisms)
+    perf = measure(replace(base, prisms=prisms), index_of=IDX)
+    phi = cf.normal_exit_prism(magnification=math.sqrt(3.0), n=1.5)[0]
+    t_a = cf.fresnel_powers(phi, 1.0, 1.5)[3]  # p transmission of the steep faces (uncoated)
+    r = r_max / 100.0
+    assert perf.design.transmission == pytest.approx(t_a**2 * (1.0 - r) ** 2, abs=1e-12)
+    ghost = {(g.prism, g.face): g for g in perf.ghosts}[("P1", "C")]
+    # back through P1 face A the ray meets the same angles: the same T_p (Fresnel reciprocity)
+    assert ghost.power_fraction == pytest.approx(t_a * r * t_a, abs=1e-12)
+    assert ghost.destination == "source"
+    uncoated = {(g.prism, g.face): g for g in measure(base, index_of=IDX).ghosts}[("P1", "C")]
+    assert np.allclose(ghost.direction, uncoated.direction, atol=1e-12)

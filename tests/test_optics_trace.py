@@ -3,12 +3,16 @@
 from __future__ import annotations
 
 import math
+from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import pytest
 
-from prismfab.model import Face, FaceRole, Polarization, Pose, Prism, System
-from prismfab.optics import RayBundle, sample_beam, trace
+from prismfab import materials
+from prismfab.errors import MaterialError
+from prismfab.model import Coating, CoatingType, Face, FaceRole, Polarization, Pose, Prism, System
+from prismfab.optics import RayBundle, measure, sample_beam, trace
 from prismfab.optics import closed_forms as cf
 from prismfab.optics.beam import envelope_rays, grid_beam
 from prismfab.optics.solid import solid_of
@@ -191,3 +195,95 @@ def test_beam_sampling() -> None:
     env = envelope_rays(beam, wavelength_nm=632.8)
     assert env.origins[1, 0] == pytest.approx(0.5) and env.origins[3, 1] == pytest.approx(1.5)
     assert not a.origins.flags.writeable
+
+
+def _messy_rays() -> RayBundle:
+    """Rays that miss, clip on ground and end faces, refract and skew, in several wavelengths."""
+    rng = np.random.default_rng(11)
+    n = 3000
+    o = np.column_stack([rng.normal(0, 6, n), rng.normal(0, 4, n), np.zeros(n)])
+    d = np.column_stack([rng.normal(0, 0.05, n), rng.normal(0, 0.05, n), np.ones(n)])
+    wl = rng.choice([600.0, 632.8, 700.0], n)
+    return RayBundle.create(o, d, wl, polarization=Polarization.UNPOLARIZED)
+
+
+def test_prediction_gives_the_full_search_result_bit_for_bit() -> None:
+    """Predicted next faces (verified per ray) and the full search give identical traces."""
+    system = _pair()
+    rays = _messy_rays()
+    reflect = np.where(np.arange(rays.n_rays) % 5 == 0, 1, -1)  # some forced partial reflections
+    a = trace(system, rays, index_of=_dispersive, chunk_size=257, reflect_at_event=reflect)
+    b = trace(system, rays, index_of=_dispersive, chunk_size=4096, predict=False, reflect_at_event=reflect)
+    assert len(set(a.status.tolist())) >= 2 and (a.n_events >= 4).sum() > 100  # a mixed bundle
+    for name in ("origins", "directions", "status", "power", "opl_mm", "n_events"):
+        assert np.array_equal(getattr(a, name), getattr(b, name)), name
+    for x, y in zip(a.event_arrays, b.event_arrays, strict=True):
+        for u, v in zip(x, y, strict=True):
+            assert np.array_equal(u, v)
+
+
+def _dispersive(material: str, wavelengths_nm: np.ndarray) -> np.ndarray:
+    return 1.5 + 0.004 / (np.asarray(wavelengths_nm, float) * 1e-3) ** 2  # invented test glass
+
+
+def _coated(system: System, prism: int, face: int, coating: Coating, role: FaceRole | None = None) -> System:
+    p = system.prisms[prism]
+    faces = list(p.faces)
+    faces[face] = replace(faces[face], coating=coating, role=role or faces[face].role)
+    prisms = list(system.prisms)
+    prisms[prism] = replace(p, faces=tuple(faces))
+    return replace(system, prisms=tuple(prisms))
+
+
+def test_antireflection_face_transmits_its_reflectance_limit() -> None:
+    """An AR-coated refracting face passes 1 - R_max for s and p alike; uncoated faces stay Fresnel."""
+    phi = 60 * math.pi / 180
+    system = prism_chain(apex_rad=[40 * math.pi / 180], incidence_rad=[phi], senses=[1], index_of=IDX)
+    coated = _coated(system, 0, 2, Coating(CoatingType.ANTIREFLECTION, reflectance_max_pct=0.5))
+    _, _, ts1, tp1 = cf.fresnel_powers(phi, 1.0, 1.5)
+    for pol, t_entry in ((Polarization.P, tp1), (Polarization.S, ts1)):
+        res = trace(coated, RayBundle.create([0, 0, 0], [0, 0, 1], 632.8, polarization=pol), index_of=IDX)
+        assert res.status[0] == STATUS_EXITED
+        assert res.power[0] == pytest.approx(t_entry * 0.995, abs=1e-12)
+    # a face coated without a stated limit is traced uncoated
+    bare = _coated(system, 0, 2, Coating(CoatingType.ANTIREFLECTION))
+    ref = trace(system, RayBundle.create([0, 0, 0], [0, 0, 1], 632.8), index_of=IDX).power[0]
+    assert trace(bare, RayBundle.create([0, 0, 0], [0, 0, 1], 632.8), index_of=IDX).power[0] == ref
+
+
+def test_mirror_coating_reflects_its_floor() -> None:
+    """A mirror face reflects reflectance_min_pct and absorbs the rest; without a floor it is ideal."""
+    pts = [(-5.0, 10.0), (5.0, 10.0), (5.0, 20.0), (-5.0, 20.0)]
+    roles = (FaceRole.ENTRY, FaceRole.MIRROR, FaceRole.MIRROR, FaceRole.MIRROR)
+    box = prism_from_points("M", pts, roles, height_mm=100.0)
+    system = System("test", (box,), _pair().beam)
+    ray = RayBundle.create([0, 0, 0], [0.3, 0, 1], 632.8)
+    ideal = trace(system, ray, index_of=IDX, max_events=3)
+    mirror = Coating(CoatingType.MIRROR, reflectance_min_pct=96.0)
+    coated = System("test", (replace(box, faces=tuple(
+        replace(f, coating=mirror) if f.role is FaceRole.MIRROR else f for f in box.faces)),), system.beam)
+    res = trace(coated, ray, index_of=IDX, max_events=3)
+    assert (res.event_kind[0, 1:] == EVENT_MIRROR).all()
+    assert res.power[0] == pytest.approx(ideal.power[0] * 0.96**2, abs=1e-12)
+
+
+def test_user_catalogue_material_is_traced(tmp_path: Path) -> None:
+    """A material defined only in the system's user catalogue file is found by the tracer."""
+    cat = tmp_path / "melts.yaml"
+    cat.write_text(
+        "format: 1\nmaterials:\n  test melt q:\n    type: test crown\n    formula: sellmeier-c\n"
+        "    coefficients:\n      B: [1.03961212, 0.231792344, 1.01046945]\n"
+        "      C_um2: [0.00600069867, 0.0200179144, 103.560653]\n    range_um: [0.4, 2.0]\n"
+        "    temperature_c: 20\n    source: \"test melt sheet\"\n")
+    base = _pair()
+    prisms = tuple(replace(p, material="test melt q") for p in base.prisms)
+    system = replace(base, prisms=prisms, materials_file=str(cat))
+    ray = RayBundle.create([0, 0, 0], [0, 0, 1], 632.8)
+    res = trace(system, ray)
+    n = materials.get("test melt q", catalogue_file=cat).n
+    expected = trace(system, ray, index_of=lambda m, w: n(w))
+    assert res.status[0] == STATUS_EXITED
+    assert np.array_equal(res.directions, expected.directions)
+    assert measure(system).design.transmission == pytest.approx(float(res.power[0]), abs=1e-15)
+    with pytest.raises(MaterialError):
+        trace(replace(system, materials_file=""), ray)

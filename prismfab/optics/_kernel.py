@@ -12,10 +12,10 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from prismfab.model import CoatingType, Prism
 from prismfab.optics.solid import ROLE_CODES, ConvexSolid
 
 F64 = NDArray[np.float64]
-C128 = NDArray[np.complex128]
 I64 = NDArray[np.int64]
 
 EPS_MM = 1e-9
@@ -34,50 +34,136 @@ EVENT_LEAK = 5  # a TIR face that does not reflect totally: the ray leaves the g
 EVENT_PARTIAL = 6  # Fresnel partial reflection taken on purpose (ghost tracing)
 
 
+VERIFY_MARGIN_MM = 1e-6
+"""A predicted hit is accepted only this far (mm) inside its face rectangle; closer to an edge the
+ray takes the full search, so both routes give bit-identical results."""
+_SAFE_MM = 1e-10  # smallest distance of an accepted hit from any other plane of the solid
+
+
 @dataclass(frozen=True, slots=True)
 class Tables:
-    """Face tables of a system, built once per trace."""
+    """Face tables of a system, built once per trace.
+
+    Global face ``g = face_base[p] + f``. ``g_reflectance`` holds the coating model of each face:
+    NaN = uncoated (Fresnel), otherwise the fixed power reflectance the face is traced with (an
+    antireflection limit on a refracting face, or the reflectance floor of a mirror coating).
+    ``g_rect`` per side face: (e, lo_e, hi_e, h, lo_h, hi_h) such that a point P on the face plane
+    lies at least ``VERIFY_MARGIN_MM`` inside the face rectangle when ``lo_e <= e.P <= hi_e`` and
+    ``lo_h <= h.P <= hi_h``; None where the geometry is too thin for a safe margin (end faces,
+    slivers), which sends rays on that face to the full search.
+    """
 
     solids: tuple[ConvexSolid, ...]
     face_base: I64  # (P,) global id of each prism's face 0
     g_normals: F64  # (G, 3)
+    g_offsets: F64  # (G,)
     g_roles: I64  # (G,)
+    g_reflectance: F64  # (G,) NaN = Fresnel
+    g_rect: tuple[tuple[F64, float, float, F64, float, float] | None, ...]
     centres: F64  # (P, 3) bounding-sphere centres, mm
     radii: F64  # (P,) bounding-sphere radii, mm
+    box_lo: F64  # (P, 3) axis-aligned bounds of each solid, mm
+    box_hi: F64  # (P, 3)
 
 
-def build_tables(solids: tuple[ConvexSolid, ...]) -> Tables:
-    """Stack the face planes of all prisms; bounding spheres for the quick rejection."""
+def face_reflectance(prism: Prism, face: int) -> float:
+    """Coating model of one side face: fixed power reflectance, or NaN for uncoated Fresnel.
+
+    * refracting face with an antireflection coating: its ``reflectance_max_pct`` for both
+      polarisations at every angle (the specification limit, a conservative upper bound of what
+      a coating that meets it reflects); without a stated limit the face is traced uncoated;
+    * mirror face (role MIRROR, or a mirror coating on an internal-reflection face): the
+      coating's ``reflectance_min_pct`` (the rest is absorbed), 100 % when no floor is stated;
+    * anything else: NaN (Fresnel; total internal reflection where it occurs).
+    """
+    f = prism.faces[face]
+    coat = f.coating
+    role = ROLE_CODES[f.role.value]
+    if role == ROLE_REFRACT and coat.type is CoatingType.ANTIREFLECTION and coat.reflectance_max_pct is not None:
+        return float(coat.reflectance_max_pct) / 100.0
+    if role == ROLE_MIRROR or (role == ROLE_TIR and coat.type is CoatingType.MIRROR):
+        return 1.0 if coat.reflectance_min_pct is None else float(coat.reflectance_min_pct) / 100.0
+    return float("nan")
+
+
+def _rect(solid: ConvexSolid, f: int) -> tuple[F64, float, float, F64, float, float] | None:
+    """Verification bounds of side face f (see ``Tables``), or None."""
+    n = solid.n_sides
+    v0, v1 = solid.vertices_mm[f], solid.vertices_mm[(f + 1) % n]
+    length = float(np.hypot(*(v1 - v0)))
+    m, h_mm = VERIFY_MARGIN_MM, solid.height_mm
+    if length <= 4 * m or h_mm <= 4 * m:
+        return None
+    e_part = np.array([(v1[0] - v0[0]) / length, (v1[1] - v0[1]) / length, 0.0])
+    # the shrunk face segment must be clearly inside every other side plane
+    normals_2d = solid.normals[:n] @ solid.rotation  # back to the part frame
+    for j in range(n):
+        if j == f:
+            continue
+        nj, vj = normals_2d[j, :2], solid.vertices_mm[j]  # plane j passes through vertex j
+        for a in (m, length - m):
+            if float(nj @ (v0 + a * e_part[:2] - vj)) > -_SAFE_MM:
+                return None
+    e = solid.rotation @ e_part
+    h = solid.rotation @ np.array([0.0, 0.0, 1.0])
+    e0 = float(e @ (solid.rotation @ np.array([v0[0], v0[1], 0.0]) + solid.translation_mm))
+    h0 = float(h @ solid.translation_mm)
+    return e, e0 + m, e0 + length - m, h, h0 + m, h0 + h_mm - m
+
+
+def build_tables(solids: tuple[ConvexSolid, ...], prisms: tuple[Prism, ...]) -> Tables:
+    """Stack the face planes of all prisms; bounds for the quick rejections; coating models."""
     counts = np.array([s.normals.shape[0] for s in solids])
-    centres, radii = [], []
+    centres, radii, lo, hi = [], [], [], []
     for s in solids:
         v = np.array([[x, y, z] for x, y in s.vertices_mm for z in (0.0, s.height_mm)])
         corners = v @ s.rotation.T + s.translation_mm
         c = corners.mean(axis=0)
         centres.append(c)
         radii.append(float(np.max(np.linalg.norm(corners - c, axis=1))) * (1 + 1e-9) + 1e-6)
+        lo.append(corners.min(axis=0) - 1e-6)
+        hi.append(corners.max(axis=0) + 1e-6)
+    refl = [face_reflectance(p, f) if f < s.n_sides else float("nan")
+            for s, p in zip(solids, prisms, strict=True) for f in range(s.normals.shape[0])]
+    rects = tuple(_rect(s, f) if f < s.n_sides else None for s in solids for f in range(s.normals.shape[0]))
     return Tables(
         solids=solids,
         face_base=np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(np.int64),
         g_normals=np.vstack([s.normals for s in solids]),
+        g_offsets=np.concatenate([s.offsets_mm for s in solids]),
         g_roles=np.array([ROLE_CODES[r] for s in solids for r in s.roles], dtype=np.int64),
-        centres=np.array(centres), radii=np.array(radii),
+        g_reflectance=np.array(refl), g_rect=rects,
+        centres=np.array(centres), radii=np.array(radii), box_lo=np.array(lo), box_hi=np.array(hi),
     )
 
 
-def pdot(nv: F64, x: F64) -> F64:
-    """``nv . x`` for one (3,) vector and (3, n) rows, skipping zero components (exact)."""
-    out: F64 | None = None
+def pdot(nv: F64, x: F64, out: F64 | None = None, tmp: F64 | None = None, *, view_ok: bool = False) -> F64:
+    """``nv . x`` for one (3,) vector and (3, n) rows, skipping zero components (exact).
+
+    ``out`` and ``tmp`` are optional (n,) work rows; the arithmetic is the same either way.
+    ``view_ok``: for a unit axis vector the row of ``x`` itself may be returned (read only).
+    """
+    if view_ok:
+        nz = [i for i in range(3) if nv[i] != 0.0]
+        if len(nz) == 1 and nv[nz[0]] == 1.0:
+            return x[nz[0]]
+    first = True
     for i in range(3):
         c = float(nv[i])
         if c == 0.0:
             continue
-        term = x[i] * c
-        if out is None:
-            out = term
+        if first:
+            out = np.multiply(x[i], c, out=out)
+            first = False
         else:
-            out += term
-    return np.zeros(x.shape[1]) if out is None else out
+            assert out is not None
+            out += np.multiply(x[i], c, out=tmp)
+    if first:
+        if out is None:
+            return np.zeros(x.shape[1])
+        out[...] = 0.0
+    assert out is not None
+    return out
 
 
 def _candidates(tab: Tables, p: int, o: F64, d: F64) -> NDArray[np.bool_]:
@@ -110,35 +196,38 @@ def _slab(solid: ConvexSolid, o: F64, d: F64) -> tuple[F64, I64]:
     return np.where(hit, t_in, np.inf), f_in
 
 
+def entry_distance(tab: Tables, p: int, o: F64, d: F64) -> tuple[F64, I64]:
+    """Distance to the entry of prism p along rays in air (inf = missed), and the entry face."""
+    n = o.shape[1]
+    cand = _candidates(tab, p, o, d)
+    count = int(np.count_nonzero(cand))
+    if count == n:
+        return _slab(tab.solids[p], o, d)
+    t, f = np.full(n, np.inf), np.zeros(n, np.int64)
+    if count:
+        idx = np.flatnonzero(cand)
+        t[idx], f[idx] = _slab(tab.solids[p], o[:, idx], d[:, idx])
+    return t, f
+
+
 def search_air(tab: Tables, o: F64, d: F64, last: I64) -> tuple[F64, I64, I64]:
     """Nearest prism entry along rays in air: (distance mm, prism or -1, face).
 
     ``last`` is the prism each ray has just left (-1 none): a convex solid cannot be met again
-    along the same straight line, so it is not tested.
+    along the same straight line, so it is not tested. Ties go to the lower prism index.
     """
     n = o.shape[1]
     best = np.full(n, np.inf)
     prism = np.full(n, -1, np.int64)
     face = np.zeros(n, np.int64)
     uniform_last = int(last[0]) if n and last.min() == last.max() else None
-    for p, solid in enumerate(tab.solids):
+    for p in range(len(tab.solids)):
         if uniform_last == p:
             continue
-        cand = _candidates(tab, p, o, d)
+        t, f = entry_distance(tab, p, o, d)
+        upd = t < best
         if uniform_last is None:
-            cand &= last != p
-        count = int(np.count_nonzero(cand))
-        if count == 0:
-            continue
-        if count == n:
-            t, f = _slab(solid, o, d)
-            upd = t < best
-        else:
-            idx = np.flatnonzero(cand)
-            t_sub, f_sub = _slab(solid, o[:, idx], d[:, idx])
-            t, f = np.full(n, np.inf), np.zeros(n, np.int64)
-            t[idx], f[idx] = t_sub, f_sub
-            upd = t < best
+            upd &= last != p
         best = np.where(upd, t, best)
         np.putmask(prism, upd, p)
         np.putmask(face, upd, f)
@@ -173,71 +262,3 @@ def cross(a: F64, b: F64) -> F64:
 def dot(a: F64, b: F64) -> F64:
     """Row-wise dot product of (3, n) arrays."""
     return a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
-
-
-def rotate_jones(
-    u: F64, d: F64, na: F64, jones: list[tuple[C128, C128]]
-) -> tuple[F64, list[tuple[C128, C128]]]:
-    """Express each Jones pair in the (s, p_in) basis of the face.
-
-    The field is ``a u + b (d x u)``. Returns the face's s unit vector (the new basis vector for
-    the outgoing ray) and, per field, ``(E.s, E.p_in)`` with ``p_in = s x d``.
-    """
-    s = cross(na, d)
-    norm = np.sqrt(dot(s, s))
-    degenerate = norm < 1e-12  # normal incidence: any s works; keep the current basis
-    if degenerate.any():
-        norm = np.where(degenerate, 1.0, norm)
-        s = np.where(degenerate, u, s / norm)
-    else:
-        s /= norm
-    cos_a = dot(u, s)
-    sin_a = dot(d, cross(u, s))
-    out = [(a * cos_a + b * sin_a, a * sin_a - b * cos_a) for a, b in jones]
-    return s, out
-
-
-def coefficients(
-    role: I64 | int, c: F64, k: F64, n1: F64, n2: F64 | float, partial: NDArray[np.bool_] | None
-) -> tuple[NDArray[np.bool_], C128 | F64, C128 | F64, I64 | int]:
-    """Which rays reflect, the power-normalised (tau_s, tau_p) and the event kind.
-
-    ``c`` is the cosine of incidence, ``k = cos^2`` of the refraction angle (negative beyond the
-    critical angle). Transmitted amplitudes carry ``sqrt(n2 cos t / n1 cos i)``, so the power
-    of a field is ``|a|^2 + |b|^2`` at every stage.
-    """
-    tir = k < 0.0
-    ct = np.sqrt(np.abs(k))
-    if np.ndim(role) == 0 and role == ROLE_REFRACT and not tir.any() and (partial is None or not partial.any()):
-        q1, q2 = n1 * c, n2 * ct
-        p1, p2 = n2 * c, n1 * ct
-        root = 2.0 * np.sqrt(q1 * q2)
-        return np.zeros(c.shape, bool), root / (q1 + q2), root / (p1 + p2), EVENT_REFRACT
-    role = np.broadcast_to(role, c.shape)
-    partial = np.zeros(c.shape, bool) if partial is None else partial
-    refract = role == ROLE_REFRACT
-    mirror = role == ROLE_MIRROR
-    total = tir & ((role == ROLE_TIR) | refract)
-    part = partial & refract & ~tir
-    reflect = total | mirror | part
-    q1, q2, p1, p2 = n1 * c, n2 * ct, n2 * c, n1 * ct
-    with np.errstate(divide="ignore", invalid="ignore"):
-        root = 2.0 * np.sqrt(q1 * q2)
-        ts = np.where(tir, 0.0, root / (q1 + q2))
-        tp = np.where(tir, 0.0, root / (p1 + p2))
-        if total.any():  # complex only when a phase appears
-            rs_tir = (q1 - 1j * q2) / (q1 + 1j * q2)
-            rp_tir = (p1 - 1j * p2) / (p1 + 1j * p2)
-        else:
-            rs_tir = rp_tir = 0.0
-        rs_part = (q1 - q2) / (q1 + q2)
-        rp_part = (p1 - p2) / (p1 + p2)
-    ts = np.where(total, rs_tir, np.where(part, rs_part, np.where(mirror, -1.0, ts)))
-    tp = np.where(total, rp_tir, np.where(part, rp_part, np.where(mirror, 1.0, tp)))
-    kind = np.full(c.shape, EVENT_REFRACT, dtype=np.int64)
-    kind[total] = EVENT_TIR
-    kind[mirror] = EVENT_MIRROR
-    kind[part] = EVENT_PARTIAL
-    kind[(role == ROLE_TIR) & ~tir] = EVENT_LEAK
-    kind[role == ROLE_ABSORB] = EVENT_ABSORB
-    return reflect, ts, tp, kind

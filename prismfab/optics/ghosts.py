@@ -1,8 +1,10 @@
-"""First-order ghosts: the Fresnel reflection of the chief ray at every refracting face it crosses.
+"""First-order ghosts: the partial reflection of the chief ray at every refracting face it crosses.
 
 Each ghost is traced exactly: the chief ray is followed to the face, reflected there with the
-Fresnel amplitude for its polarisation, and traced onward (refraction, total internal reflection,
-absorption) like any other ray. Where it ends decides its destination:
+Fresnel amplitude for its polarisation (uncoated face) or with the square root of the coating's
+stated reflectance limit (antireflection-coated face: the ghost starts with that limit, an upper
+bound), and traced onward (refraction, total internal reflection, absorption) like any other ray.
+Where it ends decides its destination:
 
 * "source": it leaves the system within ``back_reflection_mrad`` of the reversed input beam,
   i.e. back into the laser (a warning: feedback, mode hops, and a stray-light hazard);

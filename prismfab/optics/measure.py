@@ -24,7 +24,7 @@ from prismfab.optics.trace import (
     IndexFunction,
     RayBundle,
     TraceResult,
-    default_index_of,
+    catalogue_index,
     trace,
 )
 
@@ -63,9 +63,10 @@ def measure(
         system: the solved system (system frame).
         back_reflection_mrad: a ghost leaving within this angle of the reversed input beam is
             flagged as returning to the source.
-        index_of: ``index_of(material, wavelengths_nm) -> n``; default: the material catalogue.
+        index_of: ``index_of(material, wavelengths_nm) -> n``; default: the shipped material
+            catalogue extended by ``system.materials_file``.
     """
-    index_of = default_index_of if index_of is None else index_of
+    index_of = catalogue_index(system.materials_file) if index_of is None else index_of
     wavelengths = system.beam.wavelengths_nm
     res = trace(system, _bundle(system, wavelengths), index_of=index_of)
     warnings: list[str] = []

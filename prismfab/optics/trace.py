@@ -10,7 +10,10 @@ a basis ``(u, d x u)`` that is re-expressed in each face's s/p basis, so polaris
 for skew rays; amplitudes are power-normalised, so ``|a|^2 + |b|^2`` is the carried power.
 
 Rays are processed in chunks (cache-sized numpy rows); the loops are over chunks, events and
-prisms, never over rays.
+prisms, never over rays. At each event the chunk's next face is predicted and every ray's hit
+verified, with a full search only for rays that fail; both routes give bit-identical results
+(see ``_engine``). Coated faces are traced with their specified reflectance (see
+``_kernel.face_reflectance``).
 """
 
 from __future__ import annotations
@@ -23,6 +26,8 @@ from numpy.typing import ArrayLike, NDArray
 
 from prismfab.model import Polarization, System
 from prismfab.optics import _kernel as K
+from prismfab.optics._engine import Predictor, run_chunk
+from prismfab.optics._state import Out, Pool, Rays
 from prismfab.optics.solid import ConvexSolid, solid_of
 
 __all__ = [
@@ -33,6 +38,7 @@ __all__ = [
     "IndexFunction",
     "RayBundle",
     "TraceResult",
+    "catalogue_index",
     "default_index_of",
     "trace",
 ]
@@ -55,12 +61,32 @@ EVENT_PARTIAL = K.EVENT_PARTIAL
 
 F64 = NDArray[np.float64]
 
+CHUNK_SIZE = 32768
+"""Default rays per chunk: the working rows of a chunk stay in the core's cache."""
+
 
 def default_index_of(material: str, wavelengths_nm: F64) -> ArrayLike:
-    """Index from the material catalogue (``prismfab.materials.get(key).n``)."""
+    """Index from the shipped material catalogue (``prismfab.materials.get(key).n``)."""
     from prismfab import materials
 
     return materials.get(material).n(wavelengths_nm)  # type: ignore[no-any-return]
+
+
+def catalogue_index(materials_file: str = "") -> IndexFunction:
+    """``index_of`` that looks materials up in the shipped catalogue extended by ``materials_file``.
+
+    Args:
+        materials_file: a user catalogue file (``System.materials_file``), or "" for none.
+    """
+    if not materials_file:
+        return default_index_of
+
+    def index_of(material: str, wavelengths_nm: F64) -> ArrayLike:
+        from prismfab import materials
+
+        return materials.get(material, catalogue_file=materials_file).n(wavelengths_nm)  # type: ignore[no-any-return]
+
+    return index_of
 
 
 def _frozen(a: NDArray[np.generic]) -> NDArray[np.generic]:
@@ -235,100 +261,9 @@ class TraceResult:
         return int(self.n_events.sum())
 
 
-class _Out:
-    """Result arrays of a whole trace, filled chunk by chunk."""
-
-    def __init__(self, n: int, polarized: bool) -> None:
-        self.n = n
-        self.o = np.zeros((3, n))
-        self.d = np.zeros((3, n))
-        self.status = np.zeros(n, np.int8)
-        self.power = np.zeros(n)
-        self.fields = np.zeros((3, n), complex) if polarized else None
-        self.opl = np.zeros(n)
-        self.n_events = np.zeros(n, np.int16)
-        self.events: list[tuple[NDArray[np.int16], NDArray[np.int16], NDArray[np.int8], F64, F64]] = []
-
-    def event(self, k: int) -> tuple[NDArray[np.int16], NDArray[np.int16], NDArray[np.int8], F64, F64]:
-        while len(self.events) <= k:
-            self.events.append((
-                np.full(self.n, -1, np.int16), np.full(self.n, -1, np.int16),
-                np.zeros(self.n, np.int8), np.zeros((3, self.n)), np.zeros(self.n),
-            ))
-        return self.events[k]
-
-
-class _Chunk:
-    """Working state of the live rays of one chunk (component-major arrays)."""
-
-    __slots__ = ("d", "ids", "jones", "last", "medium", "n_cur", "nglass", "o", "opl", "reflect_at", "u")
-
-    def __init__(self, rays: RayBundle, sl: slice, nglass: F64, reflect_at: NDArray[np.int64] | None) -> None:
-        self.ids: slice | NDArray[np.int64] = sl
-        self.o = np.array(rays.origins[sl].T, order="C")
-        self.d = np.array(rays.directions[sl].T, order="C")
-        u = polarization_basis(rays.directions[sl])
-        self.u = np.ascontiguousarray(u.T)
-        n = self.o.shape[1]
-        if rays.fields is None:
-            one, zero = np.ones(n), np.zeros(n)
-            self.jones = [(one, zero), (zero.copy(), one.copy())]
-        else:
-            e = rays.fields[sl]
-            v = np.cross(rays.directions[sl], u)
-            a, b = np.einsum("ij,ij->i", e, u), np.einsum("ij,ij->i", e, v)
-            if not (a.imag.any() or b.imag.any()):  # real until a phase appears (TIR)
-                a, b = a.real.copy(), b.real.copy()
-            self.jones = [(a, b)]
-        self.last = np.full(n, -1, np.int64)
-        self.medium = np.full(n, -1, np.int64)
-        self.n_cur = np.ones(n)
-        self.opl = np.zeros(n)
-        self.nglass = nglass
-        self.reflect_at = reflect_at
-
-    @property
-    def n(self) -> int:
-        return int(self.o.shape[1])
-
-    def keep(self, mask: NDArray[np.bool_]) -> None:
-        """Drop the rays where ``mask`` is False."""
-        if isinstance(self.ids, slice):
-            self.ids = np.arange(self.ids.start, self.ids.stop)
-        self.ids = self.ids[mask]
-        self.o, self.d, self.u = self.o[:, mask], self.d[:, mask], self.u[:, mask]
-        self.jones = [(a[mask], b[mask]) for a, b in self.jones]
-        self.medium, self.n_cur, self.opl = self.medium[mask], self.n_cur[mask], self.opl[mask]
-        self.last = self.last[mask]
-        if self.nglass.shape[1] > 1:
-            self.nglass = self.nglass[:, mask]
-        if self.reflect_at is not None:
-            self.reflect_at = self.reflect_at[mask]
-
-    def finish(self, out: _Out, mask: NDArray[np.bool_] | None, status: int, n_events: int,
-               d: F64 | None = None) -> None:
-        """Write the final state of the rays in ``mask`` (None = all)."""
-        sel: slice | NDArray[np.bool_] = slice(None) if mask is None else mask
-        ids = self.ids if mask is None else (
-            np.arange(self.ids.start, self.ids.stop)[mask] if isinstance(self.ids, slice) else self.ids[mask])
-        d = self.d if d is None else d
-        out.o[:, ids] = self.o[:, sel]
-        out.d[:, ids] = d[:, sel]
-        out.status[ids] = status
-        out.opl[ids] = self.opl[sel]
-        out.n_events[ids] = n_events
-        power = sum(np.abs(a[sel]) ** 2 + np.abs(b[sel]) ** 2 for a, b in self.jones) / len(self.jones)
-        out.power[ids] = power
-        if out.fields is not None:
-            a, b = self.jones[0]
-            u = self.u[:, sel]
-            v = K.cross(d[:, sel], u)
-            out.fields[:, ids] = a[sel] * u + b[sel] * v
-
-
 def trace(
     system: System, rays: RayBundle, *, max_events: int = 16, index_of: IndexFunction | None = None,
-    reflect_at_event: ArrayLike | None = None, chunk_size: int = 32768,
+    reflect_at_event: ArrayLike | None = None, chunk_size: int = CHUNK_SIZE, predict: bool = True,
 ) -> TraceResult:
     """Trace a ray bundle through the prisms of ``system``.
 
@@ -336,23 +271,28 @@ def trace(
         system: prisms at their poses (system frame).
         rays: the rays, system frame.
         max_events: face interactions allowed per ray; a ray still inside after that is TRAPPED.
-        index_of: ``index_of(material_key, wavelengths_nm) -> n``; default: the material catalogue.
+        index_of: ``index_of(material_key, wavelengths_nm) -> n``; default: the shipped material
+            catalogue extended by ``system.materials_file``.
         reflect_at_event: optional (N,) event numbers (0-based): at that event a ray meeting a
-            refracting face takes the Fresnel partial reflection instead of the transmission
-            (ghost tracing); -1 for none.
+            refracting face takes the partial reflection (Fresnel, or the coating's reflectance)
+            instead of the transmission (ghost tracing); -1 for none.
         chunk_size: rays per numpy block (memory/cache trade-off only; results do not depend on it).
+        predict: False sends every ray through the full next-face search (a check of the
+            prediction; the results are bit-identical either way).
 
     Returns:
         The final state of every ray and its event history.
     """
-    index_of = default_index_of if index_of is None else index_of
+    if chunk_size < 1:
+        raise ValueError(f"trace: chunk_size must be >= 1, got {chunk_size}")
+    index_of = catalogue_index(system.materials_file) if index_of is None else index_of
     solids = tuple(solid_of(p) for p in system.prisms)
     n = rays.n_rays
-    out = _Out(n, rays.fields is not None)
+    out = Out(n, rays.fields is not None)
     reflect = None if reflect_at_event is None else np.broadcast_to(
         np.asarray(reflect_at_event, np.int64), (n,))
     if n and solids:
-        tab = K.build_tables(solids)
+        tab = K.build_tables(solids, system.prisms)
         wl = rays.wavelengths_nm
         inverse: NDArray[np.int64] | None = None
         if wl.min() == wl.max():
@@ -361,13 +301,20 @@ def trace(
             uniq, inverse = np.unique(wl, return_inverse=True)
         ntab = np.array([np.broadcast_to(np.asarray(index_of(s.material, uniq), float), uniq.shape)
                          for s in solids])
+        predictor = Predictor(enabled=predict)
+        pool = Pool(min(n, chunk_size))
         for start in range(0, n, chunk_size):
             sl = slice(start, min(n, start + chunk_size))
-            nglass = ntab if inverse is None else ntab[:, inverse[sl]]
-            chunk = _Chunk(rays, sl, nglass, None if reflect is None else reflect[sl])
-            _trace_chunk(tab, chunk, out, max_events)
+            nglass = ntab
+            if inverse is not None:
+                inv = inverse[sl]
+                nglass = ntab[:, inv[:1]] if inv.min() == inv.max() else ntab[:, inv]
+            chunk = Rays.start(rays.origins, rays.directions, rays.fields, sl, nglass,
+                               None if reflect is None else reflect[sl], pool)
+            run_chunk(tab, chunk, out, max_events, predictor)
     elif n:
-        _Chunk(rays, slice(0, n), np.ones((0, 1)), None).finish(out, None, STATUS_EXITED, 0)
+        Rays.start(rays.origins, rays.directions, rays.fields, slice(0, n), np.ones((0, 1)),
+                   None).finish(out, None, STATUS_EXITED, 0)
     return TraceResult(
         solids=solids, origins=_frozen(out.o.T), directions=_frozen(out.d.T),
         status=_frozen(out.status), power=_frozen(out.power),
@@ -375,133 +322,3 @@ def trace(
         n_events=_frozen(out.n_events), weights=rays.weights,
         event_arrays=tuple(tuple(_frozen(a) for a in e) for e in out.events),  # type: ignore[misc]
     )
-
-
-def _search(tab: K.Tables, c: _Chunk) -> tuple[F64, NDArray[np.int64], NDArray[np.int64]]:
-    """Next face of every live ray: (distance mm, prism or -1, face)."""
-    counts = np.bincount(c.medium + 1, minlength=len(tab.solids) + 1)
-    if counts[0] == c.n:
-        return K.search_air(tab, c.o, c.d, c.last)
-    for p in range(len(tab.solids)):
-        if counts[p + 1] == c.n:
-            t, f = K.search_inside(tab.solids[p], c.o, c.d)
-            return t, np.full(c.n, p, np.int64), f
-    t, prism, face = np.zeros(c.n), np.full(c.n, -1, np.int64), np.zeros(c.n, np.int64)
-    for m in np.flatnonzero(counts):
-        idx = np.flatnonzero(c.medium == m - 1)
-        if m == 0:
-            t[idx], prism[idx], face[idx] = K.search_air(tab, c.o[:, idx], c.d[:, idx], c.last[idx])
-        else:
-            t[idx], face[idx] = K.search_inside(tab.solids[m - 1], c.o[:, idx], c.d[:, idx])
-            prism[idx] = m - 1
-    return t, prism, face
-
-
-def _trace_chunk(tab: K.Tables, c: _Chunk, out: _Out, max_events: int) -> None:
-    """Trace the live rays of one chunk to the end."""
-    for k in range(max_events + 1):
-        if c.n == 0:
-            return
-        t, prism, face = _search(tab, c)
-        gone = prism < 0
-        if gone.all():
-            c.finish(out, None, STATUS_EXITED, k)
-            return
-        if gone.any():
-            c.finish(out, gone, STATUS_EXITED, k)
-            keep = ~gone
-            c.keep(keep)
-            t, prism, face = t[keep], prism[keep], face[keep]
-            if c.n == 0:
-                return
-        if k == max_events:
-            c.finish(out, None, STATUS_TRAPPED, k)
-            return
-        c.o += t * c.d
-        c.opl += c.n_cur * t
-        _interact(tab, c, out, k, prism, face)
-
-
-def _interact(tab: K.Tables, c: _Chunk, out: _Out, k: int, prism: NDArray[np.int64],
-              face: NDArray[np.int64]) -> None:
-    """Apply the face at event ``k`` to every live ray (all are on their hit face)."""
-    g = tab.face_base[prism] + face
-    uniform = g.min() == g.max() and c.medium.min() == c.medium.max()
-    if uniform:
-        g0, p0 = int(g[0]), int(prism[0])
-        entering = bool(c.medium[0] < 0)
-        na = tab.g_normals[g0][:, None] * (1.0 if entering else -1.0)
-        role: NDArray[np.int64] | int = int(tab.g_roles[g0])
-        n2: F64 | float = c.nglass[p0] if entering else 1.0
-    else:
-        ent = c.medium < 0
-        na = tab.g_normals[g].T * np.where(ent, 1.0, -1.0)
-        role = tab.g_roles[g]
-        glass = c.nglass[prism, 0] if c.nglass.shape[1] == 1 else c.nglass[prism, np.arange(c.n)]
-        n2 = np.where(ent, glass, 1.0)
-    d = c.d
-    cos_i = -K.dot(d, na)
-    eta = c.n_cur / n2
-    kk = 1.0 - eta * eta * (1.0 - cos_i * cos_i)
-    partial = None if c.reflect_at is None else c.reflect_at == k
-    reflect, ts, tp, kind = K.coefficients(role, cos_i, kk, c.n_cur, n2, partial)
-    ev = out.event(k)
-    ev[0][c.ids], ev[1][c.ids], ev[2][c.ids] = prism, face, kind
-    ev[3][:, c.ids], ev[4][c.ids] = c.o, cos_i
-    if not reflect.any():
-        d_new = eta * d + (eta * cos_i - np.sqrt(np.maximum(kk, 0.0))) * na
-    elif reflect.all():
-        d_new = d + 2.0 * cos_i * na
-    else:
-        d_new = np.where(reflect, d + 2.0 * cos_i * na,
-                         eta * d + (eta * cos_i - np.sqrt(np.maximum(kk, 0.0))) * na)
-    stop = None
-    if np.ndim(kind):
-        stop = (kind == EVENT_ABSORB) | (kind == EVENT_LEAK)
-        if stop.any():
-            absorbed = kind == EVENT_ABSORB
-            c.finish(out, absorbed, STATUS_ABSORBED, k + 1)
-            leaked = kind == EVENT_LEAK
-            if leaked.any():
-                _leak(c, out, leaked, d_new, na, ts, tp, k + 1)
-        else:
-            stop = None
-    elif kind == EVENT_ABSORB:
-        c.finish(out, None, STATUS_ABSORBED, k + 1)
-        c.keep(np.zeros(c.n, bool))
-        return
-    s, rotated = K.rotate_jones(c.u, d, na, c.jones)
-    c.jones = [(ts * es, -tp * ep) for es, ep in rotated]
-    c.u = s
-    c.d = d_new
-    _update_medium(c, reflect, prism, n2)
-    if stop is not None:
-        c.keep(~stop)
-
-
-def _leak(c: _Chunk, out: _Out, leaked: NDArray[np.bool_], d_new: F64, na: F64,
-          ts: NDArray[np.complex128], tp: NDArray[np.complex128], n_events: int) -> None:
-    """Finish rays that leave through a TIR face, carrying the transmitted field."""
-    s, rotated = K.rotate_jones(c.u, c.d, na, c.jones)
-    saved = c.jones, c.u
-    c.jones = [(ts * es, -tp * ep) for es, ep in rotated]
-    c.u = s
-    c.finish(out, leaked, STATUS_LEAKED, n_events, d=d_new)
-    c.jones, c.u = saved
-
-
-def _update_medium(c: _Chunk, reflect: NDArray[np.bool_], prism: NDArray[np.int64], n2: F64 | float) -> None:
-    """Rays that refracted change medium (air <-> prism)."""
-    crossed = ~reflect
-    if not crossed.any():
-        return
-    entering = c.medium < 0
-    medium = np.where(entering, prism, -1)
-    n_cur = np.where(entering, n2, 1.0)
-    last = np.where(entering, -1, c.medium)
-    if crossed.all():
-        c.medium, c.n_cur, c.last = medium, n_cur, last
-    else:
-        c.medium = np.where(crossed, medium, c.medium)
-        c.n_cur = np.where(crossed, n_cur, c.n_cur)
-        c.last = np.where(crossed, last, c.last)

@@ -1,0 +1,263 @@
+"""The event loop of one chunk: predict the next face, verify it, interact, fall back.
+
+Internal module. At every event the chunk's next face is predicted (the face most rays of a few
+pilot rays meet, remembered from the previous chunk when it served), and every ray's hit on it
+is verified: the hit point must lie at least ``VERIFY_MARGIN_MM`` inside the face rectangle, on
+the correct side, and (in air) no other prism may lie near the segment. Accepted rays get exactly
+the distance the full search would give (same formula, and no other plane within rounding
+reach), so the route a ray takes never changes its result. Rays that fail take the full search
+and are handled in groups of equal (prism, face, medium).
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+
+import numpy as np
+from numpy.typing import NDArray
+
+from prismfab.optics import _kernel as K
+from prismfab.optics._face import STATUS_ABSORBED, STATUS_CONTINUE, STATUS_LEAKED, interact
+from prismfab.optics._state import EventArrays, Out, Rays
+
+F64 = NDArray[np.float64]
+I64 = NDArray[np.int64]
+
+STATUS_EXITED = 0
+STATUS_TRAPPED = 3
+_PILOTS = 7
+
+Key = tuple[int, int, int, int]  # (medium, last, prism, face)
+
+
+class Predictor:
+    """Remembers, per event number, the (medium, last, prism, face) that served the last chunk."""
+
+    def __init__(self, enabled: bool = True) -> None:
+        self.enabled = enabled
+        self.memory: dict[int, Key | None] = {}
+
+
+def search(tab: K.Tables, r: Rays, o: F64 | None = None, d: F64 | None = None) -> tuple[F64, I64, I64]:
+    """Full next-face search of every ray: (distance mm, prism or -1, face)."""
+    o = r.o if o is None else o
+    d = r.d if d is None else d
+    n = o.shape[1]
+    counts = np.bincount(r.medium + 1, minlength=len(tab.solids) + 1)
+    if counts[0] == n:
+        return K.search_air(tab, o, d, r.last)
+    for p in range(len(tab.solids)):
+        if counts[p + 1] == n:
+            t, f = K.search_inside(tab.solids[p], o, d)
+            return t, np.full(n, p, np.int64), f
+    t, prism, face = np.zeros(n), np.full(n, -1, np.int64), np.zeros(n, np.int64)
+    for m in np.flatnonzero(counts):
+        idx = np.flatnonzero(r.medium == m - 1)
+        if m == 0:
+            t[idx], prism[idx], face[idx] = K.search_air(tab, o[:, idx], d[:, idx], r.last[idx])
+        else:
+            t[idx], face[idx] = K.search_inside(tab.solids[m - 1], o[:, idx], d[:, idx])
+            prism[idx] = m - 1
+    return t, prism, face
+
+
+def _pilot(tab: K.Tables, r: Rays) -> Key | None:
+    """The (medium, last, prism, face) most of a few evenly spread rays meet next."""
+    idx = np.unique(np.linspace(0, r.n - 1, min(r.n, _PILOTS)).astype(np.int64))
+    sub = r.take(idx)
+    _, prism, face = search(tab, sub)
+    votes = Counter((int(m), int(l), int(p), int(f))
+                    for m, l, p, f in zip(sub.medium, sub.last, prism, face, strict=True) if p >= 0)
+    return votes.most_common(1)[0][0] if votes else None
+
+
+def _index(r: Rays, medium: int) -> float | F64:
+    """Index of ``medium`` (-1 = air) for the rays of ``r``: a float for one-wavelength chunks."""
+    if medium < 0:
+        return 1.0
+    row = r.nglass[medium]
+    return float(row[0]) if r.nglass.shape[1] == 1 else row
+
+
+def _verify(tab: K.Tables, r: Rays, key: Key, target: F64) -> tuple[NDArray[np.bool_], F64, F64]:
+    """Predicted hits on face ``key``: (accepted mask, normal . d, distance); points into ``target``."""
+    m, last, p, f = key
+    g = int(tab.face_base[p]) + f
+    solid = tab.solids[p]
+    nv = solid.normals[f]
+    o, d, pool, n = r.o, r.d, r.pool, r.n
+    tmp = pool.get("tmp", n=n)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dn = K.pdot(nv, d, pool.get("dn", n=n), tmp)
+        t = K.pdot(nv, o, pool.get("t", n=n), tmp)
+        np.subtract(solid.offsets_mm[f], t, out=t)
+        t /= dn
+        if m >= 0:
+            np.maximum(t, 0.0, out=t)
+        for i in range(3):
+            np.multiply(t, d[i], out=target[i])
+            target[i] += o[i]
+        rect = tab.g_rect[g]
+        assert rect is not None
+        e, lo_e, hi_e, h, lo_h, hi_h = rect
+        ok = pool.get("ok", n=n, dtype=np.bool_)
+        test = pool.get("test", n=n, dtype=np.bool_)
+        if m < 0:
+            np.less(dn, 0.0, out=ok)
+            ok &= np.greater(t, K.EPS_MM, out=test)
+        else:
+            np.greater(dn, 0.0, out=ok)
+        for vec, lo, hi in ((e, lo_e, hi_e), (h, lo_h, hi_h)):
+            x = K.pdot(vec, target, pool.get("x", n=n), tmp, view_ok=True)
+            ok &= np.greater_equal(x, lo, out=test)
+            ok &= np.less_equal(x, hi, out=test)
+    if not (r.medium.min() == r.medium.max() == m and (m >= 0 or r.last.min() == r.last.max() == last)):
+        ok &= r.medium == m
+        if m < 0:
+            ok &= r.last == last
+    if m < 0:
+        _clear_of_other_prisms(tab, r, p, last, t, target, ok)
+    return ok, dn, t
+
+
+def _clear_of_other_prisms(tab: K.Tables, r: Rays, p: int, last: int, t: F64, hit: F64,
+                           ok: NDArray[np.bool_]) -> None:
+    """Clear ``ok`` where another prism could be met before the predicted hit (in air)."""
+    others = [q for q in range(len(tab.solids)) if q not in (p, last)]
+    if not others or not ok.any():
+        return
+    lo = np.minimum(r.o.min(axis=1), hit.min(axis=1))
+    hi = np.maximum(r.o.max(axis=1), hit.max(axis=1))
+    for q in others:
+        if np.all(hi >= tab.box_lo[q]) and np.all(lo <= tab.box_hi[q]):
+            t_q, _ = K.entry_distance(tab, q, r.o, r.d)
+            ok &= (t_q > t) | ((t_q == t) & (q > p))
+
+
+def run_chunk(tab: K.Tables, r: Rays, out: Out, max_events: int, predictor: Predictor) -> None:
+    """Trace the live rays of one chunk to the end."""
+    for k in range(max_events + 1):
+        if r.n == 0:
+            return
+        if not _event(tab, r, out, k, max_events, predictor):
+            return
+
+
+def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor: Predictor) -> bool:
+    """One event of every live ray; False when the chunk is done."""
+    key = None
+    if predictor.enabled:
+        key = predictor.memory[k] if k in predictor.memory else _pilot(tab, r)
+        if key is None:
+            predictor.memory[k] = None  # the rays leave: the full search is the check
+    if key is not None and tab.g_rect[int(tab.face_base[key[2]]) + key[3]] is None:
+        key = None
+    n = r.n
+    ev: EventArrays | None = None
+    hit = None
+    created = len(out.events) <= k
+    if key is not None:
+        if k < max_events:
+            ev = out.event(k)
+            hit = ev[3][:, r.ids] if isinstance(r.ids, slice) else np.empty((3, n))
+        else:
+            hit = np.empty((3, n))
+        ok, dn, t = _verify(tab, r, key, hit)
+        n_ok = int(np.count_nonzero(ok))
+        if n_ok * 2 >= n:
+            predictor.memory[k] = key
+        else:
+            predictor.memory.pop(k, None)
+        ex = np.flatnonzero(~ok) if n_ok < n else np.zeros(0, np.int64)
+        if len(ex):  # harmless stand-ins (normal incidence at the start point) until overwritten
+            t[ex] = 0.0
+            dn[ex] = -1.0 if key[0] < 0 else 1.0
+            hit[:, ex] = r.o[:, ex]
+    else:
+        n_ok, ex = 0, np.arange(n)
+    if len(ex):
+        t_ex, prism_ex, face_ex = search(tab, r if len(ex) == n else r.take(ex))
+    else:
+        t_ex, prism_ex, face_ex = np.zeros(0), ex, ex
+    gone = ex[prism_ex < 0]
+    if len(gone):
+        r.finish(out, None if len(gone) == n else _mask(n, gone), STATUS_EXITED, k)
+    if len(gone) == n or k == max_events:
+        if len(gone) < n:
+            r.finish(out, ~_mask(n, gone), STATUS_TRAPPED, k)
+        if ev is not None and created:
+            out.events.pop()
+        return False
+    if ev is None:
+        ev = out.event(k)
+    hits = prism_ex >= 0
+    ex_hit, t_ex, prism_ex, face_ex = ex[hits], t_ex[hits], prism_ex[hits], face_ex[hits]
+    sub = r.take(ex_hit) if len(ex_hit) else None
+    status: NDArray[np.int8] | None = None
+    if key is not None and n_ok:
+        assert hit is not None
+        m, _, p, f = key
+        n1 = _index(r, m)
+        r.o = hit
+        if not isinstance(r.ids, slice):
+            ev[3][:, r.ids] = hit
+        r.opl += np.multiply(t, n1, out=r.pool.get("tmp", n=n))
+        status = interact(tab, r, ev, k, p, f, dn, n1, _index(r, p) if m < 0 else 1.0, entering=m < 0)
+    else:
+        r.o = hit if hit is not None else (ev[3][:, r.ids] if isinstance(r.ids, slice) else np.empty((3, n)))
+    if key is not None and len(gone):
+        _clear_event(ev, r.global_ids(gone))
+    if sub is not None:
+        status = _exceptions(tab, r, sub, ex_hit, t_ex, prism_ex, face_ex, ev, k, status)
+    if status is not None and len(gone):
+        status[gone] = STATUS_CONTINUE
+    drop = None if status is None else status != STATUS_CONTINUE
+    for code in (STATUS_ABSORBED, STATUS_LEAKED):
+        if status is not None and (sel := status == code).any():
+            r.finish(out, sel, code, k + 1)
+    if len(gone):
+        drop = _mask(n, gone) if drop is None else drop | _mask(n, gone)
+    if drop is not None and drop.any():
+        r.keep(~drop)
+    return True
+
+
+def _mask(n: int, idx: I64) -> NDArray[np.bool_]:
+    m = np.zeros(n, bool)
+    m[idx] = True
+    return m
+
+
+def _clear_event(ev: EventArrays, ids: I64) -> None:
+    """Undo the record of event arrays at ``ids`` (rays that had no such event)."""
+    ev[0][ids], ev[1][ids], ev[2][ids], ev[4][ids] = -1, -1, 0, 0.0
+    ev[3][:, ids] = 0.0
+
+
+def _exceptions(tab: K.Tables, r: Rays, sub: Rays, ex: I64, t: F64, prism: I64, face: I64,
+                ev: EventArrays, k: int, status: NDArray[np.int8] | None) -> NDArray[np.int8] | None:
+    """Interact the rays that took the full search, in groups of one (prism, face, medium)."""
+    keys = np.stack([prism, face, sub.medium])
+    uniq, inverse = np.unique(keys, axis=1, return_inverse=True)
+    inverse = inverse.ravel()
+    for j in range(uniq.shape[1]):
+        sel = np.flatnonzero(inverse == j)
+        grp = sub.take(sel)
+        tg = t[sel]
+        p, f = int(uniq[0, j]), int(uniq[1, j])
+        nv = tab.solids[p].normals[f]
+        dn = K.pdot(nv, grp.d)
+        grp.o = grp.o + tg * grp.d
+        ev[3][:, grp.ids] = grp.o
+        n1 = _index(grp, int(grp.medium[0]))
+        grp.opl += n1 * tg
+        entering = int(grp.medium[0]) < 0
+        st = interact(tab, grp, ev, k, p, f, dn, n1, _index(grp, p) if entering else 1.0, entering=entering)
+        r.put(ex[sel], grp)
+        if st is not None:
+            if status is None:
+                status = np.full(r.n, STATUS_CONTINUE, np.int8)
+            status[ex[sel]] = st
+        elif status is not None:
+            status[ex[sel]] = STATUS_CONTINUE
+    return status

@@ -1,0 +1,247 @@
+"""Working state of the live rays of one chunk, and the result arrays of a whole trace.
+
+Internal module. Ray state is component-major (``(3, n)`` rows), so every component is one
+contiguous row. A chunk's hit points are written straight into the event arrays of the result
+and the chunk's ``o`` is a view of them while the chunk is unbroken (``ids`` a slice), so an
+event costs no copy of the points.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import NDArray
+
+F64 = NDArray[np.float64]
+I64 = NDArray[np.int64]
+Jones = list[tuple[NDArray[np.generic], NDArray[np.generic]]]
+EventArrays = tuple[NDArray[np.int16], NDArray[np.int16], NDArray[np.int8], F64, F64]
+
+
+class Out:
+    """Result arrays of a whole trace, filled chunk by chunk."""
+
+    def __init__(self, n: int, polarized: bool) -> None:
+        self.n = n
+        self.o = np.zeros((3, n))
+        self.d = np.zeros((3, n))
+        self.status = np.zeros(n, np.int8)
+        self.power = np.zeros(n)
+        self.fields = np.zeros((3, n), complex) if polarized else None
+        self.opl = np.zeros(n)
+        self.n_events = np.zeros(n, np.int16)
+        self.events: list[EventArrays] = []
+
+    def event(self, k: int) -> EventArrays:
+        """The arrays of event ``k`` (created on first use: prism -1 = no event)."""
+        while len(self.events) <= k:
+            self.events.append((
+                np.full(self.n, -1, np.int16), np.full(self.n, -1, np.int16),
+                np.zeros(self.n, np.int8), np.zeros((3, self.n)), np.zeros(self.n),
+            ))
+        return self.events[k]
+
+
+def basis_rows(d: F64, out: F64 | None = None) -> F64:
+    """``unit(y x d)`` per ray for (3, n) directions; rays along y use ``unit(x x d)``."""
+    u = np.empty_like(d) if out is None else out
+    u[0] = d[2]
+    u[1] = 0.0
+    np.negative(d[0], out=u[2])
+    norm = d[2] * d[2]
+    norm += d[0] * d[0]
+    np.sqrt(norm, out=norm)
+    bad = norm < 1e-12
+    if bad.any():
+        u[0, bad], u[1, bad], u[2, bad] = 0.0, -d[2, bad], d[1, bad]
+        norm[bad] = np.hypot(d[2, bad], d[1, bad])
+    u /= norm
+    return u
+
+
+class Rays:
+    """Live rays of one chunk (or a gathered group of them).
+
+    Attributes:
+        ids: positions in the whole bundle (a slice while the chunk is unbroken).
+        o, d, u: points, unit directions, polarisation basis vectors (3, n); the field of Jones
+            pair (a, b) is ``a u + b (d x u)``.
+        jones: one (a, b) pair per traced polarisation state (two for unpolarised light).
+        medium: -1 in air, else the prism index; last: the prism just left (-1 none).
+        opl: optical path so far, mm.
+        nglass: (P, 1) indices of every prism when the chunk has one wavelength, else (P, n).
+        reflect_at: event number of the forced partial reflection per ray, or None.
+    """
+
+    __slots__ = ("d", "ids", "jones", "last", "medium", "nglass", "o", "opl", "pool", "reflect_at", "u")
+
+    def __init__(self, *, ids: slice | I64, o: F64, d: F64, u: F64, jones: Jones, medium: I64,
+                 last: I64, opl: F64, nglass: F64, reflect_at: I64 | None, pool: Pool | None = None) -> None:
+        self.ids, self.o, self.d, self.u, self.jones = ids, o, d, u, jones
+        self.medium, self.last, self.opl, self.nglass, self.reflect_at = medium, last, opl, nglass, reflect_at
+        self.pool = Pool(o.shape[1]) if pool is None else pool
+
+    @classmethod
+    def start(cls, origins: F64, directions: F64, fields: NDArray[np.complex128] | None, sl: slice,
+              nglass: F64, reflect_at: I64 | None, pool: Pool | None = None) -> Rays:
+        """State of bundle rows ``sl`` before their first event (``pool``: work rows to reuse)."""
+        n = sl.stop - sl.start
+        pool = Pool(n) if pool is None else pool
+        o = pool.get("o", 3, n)
+        np.copyto(o, origins[sl].T)
+        d = pool.fresh("d", None, 3, n)
+        np.copyto(d, directions[sl].T)
+        u = basis_rows(d, pool.fresh("u", None, 3, n))
+        jones: Jones = []
+        if fields is None:
+            for m in range(2):
+                jones.append((pool.fresh(f"a{m}", None, n=n), pool.fresh(f"b{m}", None, n=n)))
+                jones[m][0].fill(1.0 - m)
+                jones[m][1].fill(float(m))
+        else:
+            e = fields[sl]
+            v = _cross_rows(d, u)
+            if e.imag.any():
+                a = e[:, 0] * u[0] + e[:, 1] * u[1] + e[:, 2] * u[2]
+                b = e[:, 0] * v[0] + e[:, 1] * v[1] + e[:, 2] * v[2]
+            else:  # real until a phase appears (TIR)
+                er = e.real
+                a = np.multiply(er[:, 0], u[0], out=pool.fresh("a0", None, n=n))
+                a += er[:, 1] * u[1]
+                a += er[:, 2] * u[2]
+                b = np.multiply(er[:, 0], v[0], out=pool.fresh("b0", None, n=n))
+                b += er[:, 1] * v[1]
+                b += er[:, 2] * v[2]
+            jones.append((a, b))
+        medium = pool.get("medium", n=n, dtype=np.int64)
+        medium.fill(-1)
+        last = pool.get("last", n=n, dtype=np.int64)
+        last.fill(-1)
+        opl = pool.get("opl", n=n)
+        opl.fill(0.0)
+        return cls(ids=sl, o=o, d=d, u=u, jones=jones, medium=medium, last=last, opl=opl,
+                   nglass=nglass, reflect_at=reflect_at, pool=pool)
+
+    @property
+    def n(self) -> int:
+        """Number of live rays."""
+        return int(self.o.shape[1])
+
+    def global_ids(self, idx: I64 | NDArray[np.bool_] | None = None) -> slice | I64:
+        """Bundle positions of all rays (None) or of the selected ones."""
+        if idx is None:
+            return self.ids
+        ids = np.arange(self.ids.start, self.ids.stop) if isinstance(self.ids, slice) else self.ids
+        return ids[idx]
+
+    def take(self, idx: I64 | NDArray[np.bool_]) -> Rays:
+        """A copy of the selected rays (index array or boolean mask)."""
+        return Rays(
+            ids=self.global_ids(idx), o=self.o[:, idx], d=self.d[:, idx], u=self.u[:, idx],
+            jones=[(a[idx], b[idx]) for a, b in self.jones], medium=self.medium[idx],
+            last=self.last[idx], opl=self.opl[idx],
+            nglass=self.nglass if self.nglass.shape[1] == 1 else self.nglass[:, idx],
+            reflect_at=None if self.reflect_at is None else self.reflect_at[idx],
+        )
+
+    def put(self, idx: I64, sub: Rays) -> None:
+        """Write the state of ``sub`` (taken at ``idx``) back into these rays."""
+        self.o[:, idx], self.d[:, idx], self.u[:, idx] = sub.o, sub.d, sub.u
+        self.medium[idx], self.last[idx], self.opl[idx] = sub.medium, sub.last, sub.opl
+        jones = []
+        for (a, b), (sa, sb) in zip(self.jones, sub.jones, strict=True):
+            if np.iscomplexobj(sa) and not np.iscomplexobj(a):
+                a, b = a.astype(complex), b.astype(complex)
+            a[idx], b[idx] = sa, sb
+            jones.append((a, b))
+        self.jones = jones
+
+    def keep(self, mask: NDArray[np.bool_]) -> None:
+        """Drop the rays where ``mask`` is False."""
+        sub = self.take(mask)
+        for name in self.__slots__:
+            setattr(self, name, getattr(sub, name))
+
+    def power(self, sel: slice | NDArray[np.bool_] | I64 = slice(None)) -> F64:
+        """Carried power of the selected rays (mean over the polarisation states)."""
+        total = None
+        for a, b in self.jones:
+            if np.iscomplexobj(a) or np.iscomplexobj(b):
+                p = np.abs(a[sel]) ** 2 + np.abs(b[sel]) ** 2
+            else:
+                p = a[sel] * a[sel] + b[sel] * b[sel]
+            total = p if total is None else total + p
+        assert total is not None
+        return total if len(self.jones) == 1 else total / len(self.jones)
+
+    def finish(self, out: Out, sel: NDArray[np.bool_] | None, status: int, n_events: int,
+               d: F64 | None = None) -> None:
+        """Write the final state of the selected rays (None = all) into ``out``."""
+        s: slice | NDArray[np.bool_] = slice(None) if sel is None else sel
+        ids = self.global_ids(sel)
+        d = self.d if d is None else d
+        out.o[:, ids] = self.o[:, s]
+        out.d[:, ids] = d[:, s]
+        out.status[ids] = status
+        out.opl[ids] = self.opl[s]
+        out.n_events[ids] = n_events
+        out.power[ids] = self.power(s)
+        if out.fields is not None:
+            a, b = self.jones[0]
+            u, dd = self.u[:, s], d[:, s]
+            v = _cross_rows(dd, u)
+            if np.iscomplexobj(a) or np.iscomplexobj(b) or not isinstance(ids, slice):
+                out.fields[:, ids] = a[s] * u + b[s] * v
+            else:  # write the real part in place (the imaginary part stays zero)
+                target = out.fields[:, ids].real
+                for i in range(3):
+                    np.multiply(a, u[i], out=target[i])
+                    target[i] += b * v[i]
+
+
+def _cross_rows(a: F64, b: F64) -> F64:
+    """Row-wise ``a x b`` of (3, n) arrays."""
+    out = np.empty_like(a)
+    np.multiply(a[1], b[2], out=out[0])
+    out[0] -= a[2] * b[1]
+    np.multiply(a[2], b[0], out=out[1])
+    out[1] -= a[0] * b[2]
+    np.multiply(a[0], b[1], out=out[2])
+    out[2] -= a[1] * b[0]
+    return out
+
+class Pool:
+    """Reusable work rows of one chunk size, so hot array passes write into cached memory.
+
+    ``get(name, shape)`` returns the same buffer on every call; ``fresh(name, shape, current)``
+    returns one of two buffers under ``name``, never the one passed as ``current`` (for state
+    that is read while its successor is written). Rows of another size get plain new arrays.
+    """
+
+    def __init__(self, n: int) -> None:
+        self.n = n
+        self._bufs: dict[tuple[str, int], NDArray[np.generic]] = {}
+
+    def get(self, name: str, rows: int = 0, n: int = 0, dtype: type = np.float64) -> NDArray[np.generic]:
+        """Buffer ``name`` of shape (n,) or (rows, n)."""
+        shape = (rows, n) if rows else (n,)
+        if n != self.n:
+            return np.empty(shape, dtype)
+        key = (name, 0)
+        buf = self._bufs.get(key)
+        if buf is None or buf.shape != shape or buf.dtype != dtype:
+            buf = self._bufs[key] = np.empty(shape, dtype)
+        return buf
+
+    def fresh(self, name: str, current: object, rows: int = 0, n: int = 0,
+              dtype: type = np.float64) -> NDArray[np.generic]:
+        """One of two buffers ``name``, not the object ``current``."""
+        shape = (rows, n) if rows else (n,)
+        if n != self.n:
+            return np.empty(shape, dtype)
+        for slot in (0, 1):
+            buf = self._bufs.get((name, slot))
+            if buf is None or buf.shape != shape or buf.dtype != dtype:
+                buf = self._bufs[(name, slot)] = np.empty(shape, dtype)
+            if buf is not current:
+                return buf
+        raise AssertionError("unreachable")
