@@ -75,3 +75,38 @@ def fold_prism() -> Part:
                    sharp_edges=(), datums=(("A", "lower end face"), ("B", "face C")),
                    tolerances=_tol(30.0), functional_angles=(0, 1, 2), ray_path_mm=ray,
                    polarization_note="s: E-field normal to the principal section", notes=())
+
+
+def apex_flat_prism() -> Part:
+    """A 40° dispersing prism whose apex is truncated by a 1 mm ground flat (face C).
+
+    Base 20 mm, base angles 70°; faces A base (ground, datum B), B exit, C apex flat, D entry.
+    The functional angle between D and B (across the flat) is 40°.
+    """
+    half = math.radians(20.0)
+    apex_y = 10.0 / math.tan(half)
+    flat_y = apex_y - 0.5 / math.tan(half)
+    v = ((0.0, 0.0), (20.0, 0.0), (10.5, flat_y), (9.5, flat_y))
+    faces = (Face("A", FaceRole.GROUND, note="base"), Face("B", FaceRole.EXIT),
+             Face("C", FaceRole.GROUND, note="apex flat"), Face("D", FaceRole.ENTRY))
+    prism = Prism("P4", "fused-silica", v, faces, 12.0)
+    lengths = [prism.face_length_mm(i) for i in range(4)]
+    y = 0.4 * flat_y
+    xl, xr = y * math.tan(half), 20.0 - y * math.tan(half)
+    ray = ((xl - 8.0, y - 4.0), (xl, y), (xr, y), (xr + 8.0, y - 4.0))
+    ar = "AR, R ≤ 0.5 % per surface, 400-700 nm, AOI 30° ± 5°"
+    pf = (
+        _pf("A", FaceRole.GROUND, lengths[0], None, 0, ""),
+        _pf("B", FaceRole.EXIT, lengths[1], 14.0, lengths[1] * 0.55, ar),
+        _pf("C", FaceRole.GROUND, lengths[2], None, 0, ""),
+        _pf("D", FaceRole.ENTRY, lengths[3], 14.0, lengths[3] * 0.45, ar),
+    )
+    base = sample_part()
+    return replace(base, number="EX-1004-01", title="40° prism with apex flat", prism=prism,
+                   faces=pf, material_name="fused silica", material_code="", nd=1.4585, vd=67.82,
+                   bevelled_edges=(("A", "TOP"), ("A", "BOTTOM"), ("B", "TOP"), ("B", "BOTTOM"),
+                                   ("D", "TOP"), ("D", "BOTTOM")),
+                   sharp_edges=(("B", "C"), ("C", "D"), ("A", "B"), ("D", "A")),
+                   datums=(("A", "lower end face"), ("B", "face A (base)")),
+                   tolerances=_tol(30.0), functional_angles=(1,), ray_path_mm=ray,
+                   polarization_note="", notes=("Edges B/C and C/D sharp, no bevel; chips ≤ 0.05 mm.",))

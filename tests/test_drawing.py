@@ -14,11 +14,12 @@ from prismfab.drawing.layout import ISO_5455_SCALES
 from prismfab.drawing.sheet import AlignedDim, AngularDim, Leader, LinearDim, Sheet, Solid, Table, Text
 from prismfab.drawing.template import load_template
 from prismfab.errors import SpecError
-from tests.drawing_parts import dispersing_prism, fold_prism
+from tests.drawing_parts import apex_flat_prism, dispersing_prism, fold_prism
 from tests.fixtures import sample_info, sample_part
 
 RENDER_DIR = Path(__file__).parent / "_render"
-PARTS = {"brewster": sample_part, "dispersing": dispersing_prism, "fold": fold_prism}
+PARTS = {"brewster": sample_part, "dispersing": dispersing_prism, "fold": fold_prism,
+         "apex-flat": apex_flat_prism}
 
 
 @pytest.fixture(scope="module")
@@ -67,9 +68,9 @@ def test_iso2768_chamfer_and_angular() -> None:
 
 def test_angle_text_rounds_from_the_design_value() -> None:
     """DMS text rounds (never truncates) and drops zero fields; arcsec tolerance keeps seconds."""
-    assert "33°29′47″ ±60″" == fmt.angle_text(33 + 29 / 60 + 46.6 / 3600, 60.0)
+    assert "33°29′47″ ±1′" == fmt.angle_text(33 + 29 / 60 + 46.6 / 3600, 60.0)
     assert "36°08′ ±30″" == fmt.angle_text(36 + 8 / 60, 30.0)
-    assert "60° ±3′" == fmt.angle_text(59.99999999, 180.0).replace("±180″", "±3′")
+    assert "60° ±3′" == fmt.angle_text(59.99999999, 180.0)
     assert "60°" == fmt.dms(math.degrees(math.acos(0.5)))  # 59.99999999999999 must not read 59°59′
     assert "0°30′" == fmt.dms(0.5)  # sub-degree angles keep the leading 0° (ISO 129-1, from memory)
     assert "±10′" == fmt.angle_tolerance_text(600.0)
@@ -136,7 +137,7 @@ def test_general_notes(sheets: dict[str, Sheet]) -> None:
     text = " ".join(sheets["brewster"].texts())
     for phrase in ("millimetres", "ISO 8015", "ISO 2768-mK", "fine ground", "ground faces only",
                    "sharp edges", "gloves", "IEC 60825-1", "ANSI Z136.1", "laser safety officer",
-                   "back reflections", "ray path for reference", "Pyramidal error", "≤ 60″"):
+                   "back reflections", "Ray path", "Pyramidal error", "≤ 1′"):
         assert phrase in text, phrase
 
 
@@ -195,9 +196,10 @@ def test_section_is_defined_once(sheets: dict[str, Sheet]) -> None:
     plan = dims.plan_dimensions(part)
     n = len(part.prism.vertices_mm)
     defining = sum(k != "auxiliary" for k in plan.angles) + sum(k == "size" for k in plan.lengths)
+    defining += sum(k != "auxiliary" for k in plan.cross_kinds)
     assert 2 * n - 3 == defining
     angles = sheets["brewster"].of_type(AngularDim)
-    assert {"90° ±60″", "33°29′38″ ±60″", "(56°30′22″)"} == {a.text for a in angles}  # type: ignore[union-attr]
+    assert {"90° ±1′", "33°29′38″ ±1′", "(56°30′22″)"} == {a.text for a in angles}  # type: ignore[union-attr]
     for d in sheets["brewster"].of_type(AlignedDim) + angles:
         assert d.auxiliary == d.text.startswith("(")  # type: ignore[union-attr]
 
@@ -244,8 +246,10 @@ def test_datums_labels_and_callouts(sheets: dict[str, Sheet]) -> None:
     assert len(sheet.of_type(Solid)) >= 2
     leaders = [" ".join(e.lines) for e in sheet.of_type(Leader)]  # type: ignore[union-attr]
     assert any("bevel 0.3 max × 45°" in t for t in leaders)
-    assert any("edge B/C sharp" in t for t in leaders)
-    assert any("ray path for reference" in t for t in leaders)
+    assert any("edge B/C sharp" in t and "chips ≤ 0.1 mm" in t for t in leaders)  # chip limit at the edge
+    # The ray path is labelled by a leader where one fits cleanly, else by the numbered note.
+    assert any("ray path for reference" in t for t in leaders) or any(
+        t.startswith("Ray path, plane of incidence") for t in texts)
 
 
 def test_texts_stay_inside_the_sheet(sheets: dict[str, Sheet]) -> None:
@@ -282,10 +286,11 @@ def test_user_template_file(tmp_path: Path) -> None:
 def dxf_docs(sheets: dict[str, Sheet]) -> dict[str, object]:
     from prismfab.drawing import dxf
 
-    return {name: dxf.render(sheets[name]) for name in ("brewster", "dispersing", "fold", "brewster-a4")}
+    return {name: dxf.render(sheets[name])
+            for name in ("brewster", "dispersing", "fold", "brewster-a4", "apex-flat")}
 
 
-@pytest.mark.parametrize("name", ["brewster", "dispersing", "fold", "brewster-a4"])
+@pytest.mark.parametrize("name", ["brewster", "dispersing", "fold", "brewster-a4", "apex-flat"])
 def test_dxf_reads_back(tmp_path: Path, sheets: dict[str, Sheet], dxf_docs: dict[str, object],
                         name: str) -> None:
     """Audit clean; every DIMENSION measures the model value; header and styles in millimetres."""
@@ -353,3 +358,226 @@ def test_dxf_renders_to_png(dxf_docs: dict[str, object], sheets: dict[str, Sheet
         draw.qsave(doc.modelspace(), str(out), dpi=90, bg="#FFFFFF",  # type: ignore[attr-defined]
                    size_inches=(sheet.width_mm / 25.4, sheet.height_mm / 25.4))
         assert out.stat().st_size > 20_000
+
+
+# ---- the shop's reading of the drawing ------------------------------------------------------------
+
+@pytest.mark.parametrize(("arcsec", "text"), [
+    (30.0, "±30″"),     # under 1′: seconds (common practice)
+    (2.5, "±2.5″"),     # a fraction of a second is kept, never rounded looser (common practice)
+    (60.0, "±1′"),      # from 1′ on: minutes (common practice)
+    (90.0, "±1′30″"),   # minutes and seconds (common practice)
+    (300.0, "±5′"),     # never "±300″" (common practice)
+    (3600.0, "±1°"),    # ISO 129-1 degree notation, from memory
+    (5400.0, "±1°30′"),
+])
+def test_angle_tolerance_text_the_trade_way(arcsec: float, text: str) -> None:
+    """Angular tolerances in seconds under 1′, else in degrees, minutes and seconds."""
+    assert text == fmt.angle_tolerance_text(arcsec)
+
+
+def test_tolerance_block_uses_trade_notation(sheets: dict[str, Sheet]) -> None:
+    """The tolerance block writes minutes (±1′, ≤ 1′), never a seconds count over 59."""
+    cells = _cells(sheets["brewster"])
+    assert any(c.startswith("±1′ (edges") for c in cells)
+    assert any(c.startswith("≤ 1′, each optical face") for c in cells)
+    assert not any(re.search(r"\d{3,}″", t) for t in sheets["fold"].texts())
+
+
+def _outline(sheet: Sheet, n_min: int) -> tuple[tuple[float, float], ...]:
+    """The principal section's outline polyline (the main view's first wide closed polyline)."""
+    from prismfab.drawing.sheet import Layer, Polyline
+
+    for e in sheet.of_type(Polyline):
+        if e.layer is Layer.OUTLINE and e.closed and len(e.points) >= n_min:  # type: ignore[union-attr]
+            return e.points  # type: ignore[union-attr]
+    raise AssertionError("no outline")
+
+
+def _section(sheet: Sheet, part) -> tuple[tuple[float, float], ...]:  # type: ignore[no-untyped-def]
+    """Paper vertices of the sharp section: the scaled polygon moved onto the dimensions' ends."""
+    ends = [p for d in sheet.of_type(AlignedDim) for p in (d.p1, d.p2)]  # type: ignore[union-attr]
+    v = part.prism.vertices_mm
+    s = sheet.scale
+    for e in ends:
+        t = (e[0] - s * v[0][0], e[1] - s * v[0][1])
+        pts = tuple((s * x + t[0], s * y + t[1]) for x, y in v)
+        if all(any(math.dist(p, q) < 1e-6 for q in ends) for p in pts):
+            return pts
+    raise AssertionError("section not found")
+
+
+def _on_line(p: tuple[float, float], a: tuple[float, float], b: tuple[float, float]) -> float:
+    """Distance of p from the infinite line through a and b."""
+    return abs((b[0] - a[0]) * (p[1] - a[1]) - (b[1] - a[1]) * (p[0] - a[0])) / math.dist(a, b)
+
+
+def test_apex_flat_angle_at_the_virtual_corner(sheets: dict[str, Sheet], tmp_path: Path) -> None:
+    """The angle across an apex flat is dimensioned at the faces' theoretical sharp corner.
+
+    ISO 129-1 practice (fabrication.md section 1.8 and 5.2): the two faces are extended by thin
+    lines to the sharp corner and the functional angle carries its tolerance there.
+    """
+    import ezdxf
+
+    from prismfab.drawing import dxf
+
+    sheet = sheets["apex-flat"]
+    pts = _outline(sheet, 4)  # no bevelled side edges: the outline is the section itself
+    b_face, d_face = (pts[1], pts[2]), (pts[3], pts[0])
+    across = [d for d in sheet.of_type(AngularDim) if abs(d.measured_deg - 40.0) < 1e-6]  # type: ignore[union-attr]
+    assert 1 == len(across)
+    dim = across[0]
+    assert _on_line(dim.vertex, *b_face) < 1e-6 and _on_line(dim.vertex, *d_face) < 1e-6  # type: ignore[union-attr]
+    assert dim.vertex[1] > pts[2][1]  # beyond the flat  # type: ignore[union-attr]
+    assert "40° ±30″" == dim.text  # type: ignore[union-attr]
+    # the flat's width is a dimension with the length tolerance
+    flat = [d for d in sheet.of_type(AlignedDim) if abs(d.measured_mm - 1.0) < 1e-9]  # type: ignore[union-attr]
+    assert ["1.00 ±0.10"] == [d.text for d in flat]  # type: ignore[union-attr]
+    # the DXF DIMENSION sits at the same corner and measures the same angle
+    doc = ezdxf.readfile(dxf.save(dxf.render(sheet), tmp_path / "flat.dxf"))
+    hits = [d for d in doc.modelspace().query("DIMENSION") if d.dimtype in (2, 5)
+            and abs(float(d.get_measurement()) - 40.0) < 1e-6]
+    assert 1 == len(hits)
+    centre = hits[0].dxf.defpoint4  # 3-point angular DIMENSION: defpoint4 is the vertex
+    assert math.dist((centre[0], centre[1]), dim.vertex) < 1e-6  # type: ignore[union-attr]
+    # five defining dimensions for a quadrilateral section (2n - 3), the rest auxiliary
+    plan = dims.plan_dimensions(apex_flat_prism())
+    assert ("functional",) == plan.cross_kinds
+    assert 5 == (sum(k != "auxiliary" for k in plan.angles) + sum(k == "size" for k in plan.lengths)
+                 + 1)
+
+
+def test_functional_angles_row_names_the_angle_across_the_flat(sheets: dict[str, Sheet]) -> None:
+    """The tolerance block lists the angle across the flat with the vertex angles."""
+    assert any("B/D across C" in c for c in _cells(sheets["apex-flat"]))
+
+
+def test_chosen_scale_is_the_largest_that_fits() -> None:
+    """The next larger ISO 5455 scale would not fit the view area; text heights do not change."""
+    from prismfab.drawing import layout
+    from prismfab.drawing.extent import bbox
+
+    for part in (sample_part(), fold_prism(), apex_flat_prism()):
+        scale, text = layout.choose_scale(part, 200.0, 170.0)
+        k = [f"{a}:{b}" for a, b in ISO_5455_SCALES].index(text)
+        ents, box = layout._groups(part, scale, 3.5, "first-angle", False)
+        assert box[2] - box[0] <= 200.0 - 2 * layout.AREA_PAD_MM
+        assert box[3] - box[1] <= 170.0 - 2 * layout.AREA_PAD_MM
+        if k > 0:
+            num, den = ISO_5455_SCALES[k - 1]
+            _, bigger = layout._groups(part, num / den, 3.5, "first-angle", False)
+            assert (bigger[2] - bigger[0] > 200.0 - 2 * layout.AREA_PAD_MM
+                    or bigger[3] - bigger[1] > 170.0 - 2 * layout.AREA_PAD_MM)
+        assert bbox(ents, 3.5) == box
+    # a small part gets an enlargement on A3
+    assert layout_part(sample_part(), sample_info()).scale >= 5.0
+
+
+def test_views_stay_inside_the_view_area(sheets: dict[str, Sheet]) -> None:
+    """Every line and text of the views lies on the sheet, clear of the tables and title block."""
+    from prismfab.drawing.extent import bbox
+    from prismfab.drawing.sheet import Table
+
+    for name, sheet in sheets.items():
+        tables_ = [t for t in sheet.of_type(Table)]
+        for e in sheet.entities:
+            if not (isinstance(e, Leader) or getattr(e, "layer", None) is not None and e.layer.name in (  # type: ignore[union-attr]
+                    "OUTLINE", "HIDDEN", "RAY", "APERTURE", "DIMENSION")):
+                continue  # view entities only (the title block has its own symbol)
+            box = bbox([e], sheet.dimension_text_mm)
+            if box is None:
+                continue
+            assert 0 <= box[0] and box[2] <= sheet.width_mm and 0 <= box[1] and box[3] <= sheet.height_mm
+            if isinstance(e, Text):
+                continue  # notes and title texts stand in their own boxes
+            for t in tables_:
+                tb = bbox([t], sheet.dimension_text_mm)
+                assert tb is not None
+                overlap = box[0] < tb[2] and tb[0] < box[2] and box[1] < tb[3] and tb[1] < box[3]
+                assert not overlap, (name, type(e).__name__)
+
+
+def _segments(sheet: Sheet) -> list[tuple[tuple[float, float], tuple[float, float]]]:
+    """Section outlines and dimension lines of a sheet."""
+    segs = []
+    pts = _outline(sheet, 3)
+    segs += [(pts[i], pts[(i + 1) % len(pts)]) for i in range(len(pts))]
+    for d in sheet.of_type(AlignedDim) + sheet.of_type(LinearDim):
+        segs.append(d.dim_line())  # type: ignore[union-attr]
+    return segs
+
+
+def _cross(a, b, c, d) -> bool:  # type: ignore[no-untyped-def]
+    def o(p, q, r):  # type: ignore[no-untyped-def]
+        return (q[0] - p[0]) * (r[1] - p[1]) - (q[1] - p[1]) * (r[0] - p[0])
+    return o(a, b, c) * o(a, b, d) < -1e-9 and o(c, d, a) * o(c, d, b) < -1e-9
+
+
+@pytest.mark.parametrize("name", ["brewster", "dispersing", "fold", "apex-flat"])
+def test_leaders_cross_no_face_and_no_dimension_line(sheets: dict[str, Sheet], name: str) -> None:
+    """Callout leaders (ray path, polarisation, edges, tolerance frames) run over free paper."""
+    sheet = sheets[name]
+    segs = _segments(sheet)
+    for lead in sheet.of_type(Leader):
+        pts = lead.points  # type: ignore[union-attr]
+        for p, q in zip(pts, pts[1:], strict=False):
+            assert not any(_cross(p, q, a, b) for a, b in segs), (name, lead.lines)  # type: ignore[union-attr]
+
+
+def test_face_letters_stand_outside_beside_their_face(sheets: dict[str, Sheet]) -> None:
+    """Each face letter is outside the section and nearer its own face than any other face."""
+    from prismfab.drawing.sheet import Circle
+
+    for name in ("brewster", "dispersing", "fold"):
+        sheet = sheets[name]
+        part = PARTS[name]()
+        pts = _section(sheet, part)
+        letters = {t.text: t.position for t in sheet.of_type(Text) if len(t.text) == 1  # type: ignore[union-attr]
+                   and any(isinstance(c, Circle) and math.dist(c.centre, t.position) < 1e-9  # type: ignore[union-attr]
+                           for c in sheet.entities)}
+        for i, face in enumerate(part.faces):
+            c = letters[face.label]
+            # outside: on the outer side of its own face line (counter-clockwise section)
+            a, b = pts[i], pts[(i + 1) % 3]
+            assert (b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0]) < 0
+
+            def seg_dist(p, a, b):  # type: ignore[no-untyped-def]
+                t = max(0.0, min(1.0, ((p[0] - a[0]) * (b[0] - a[0]) + (p[1] - a[1]) * (b[1] - a[1]))
+                                 / math.dist(a, b) ** 2))
+                return math.dist(p, (a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1])))
+            dists = [seg_dist(c, pts[k], pts[(k + 1) % 3]) for k in range(3)]
+            assert dists[i] == min(dists), (name, face.label)
+
+
+def test_bevels_drawn_where_they_show(sheets: dict[str, Sheet]) -> None:
+    """Bevelled vertical edges cut the section's corners; the sharp edge B/C stays a corner."""
+    sheet = sheets["brewster"]  # 5:1, bevel 0.3: legs of 1 mm and more on paper
+    pts = _outline(sheet, 3)
+    part = sample_part()
+    assert len(part.prism.vertices_mm) + 2 == len(pts)  # edges C/A and A/B cut, B/C sharp
+    s = sheet.scale
+    apex = part.prism.vertices_mm[2]
+    assert any(math.dist(p, pts[0]) < 1e-9 for p in pts)
+    # the apex (sharp edge B/C) is a vertex of the outline: its Y is the outline's top
+    assert pytest.approx(max(p[1] for p in pts) - min(p[1] for p in pts)) == s * apex[1]
+
+
+def test_perpendicularity_frame_value() -> None:
+    """⊥ zone for a 20 mm high face and 1′ pyramidal error: 20 mm × tan 1′ = 5.8 µm.
+
+    fabrication.md section 1.8: "across a 20 mm face 1′ ≈ 5.8 µm" (derived).
+    """
+    from prismfab.drawing.annotate import perpendicularity_zone_mm
+
+    assert 0.0058 == pytest.approx(perpendicularity_zone_mm(fold_prism()), abs=1e-12)
+
+
+def test_perpendicularity_frames_on_the_section(sheets: dict[str, Sheet]) -> None:
+    """Where it fits cleanly, the ISO 1101 frame reads ⊥ | zone | A (datum A = lower end face)."""
+    for name, zone in (("brewster", "0.0029"), ("fold", "0.0058")):  # 10 and 20 mm × tan 1′
+        texts = sheets[name].texts()
+        frames = [i for i, t in enumerate(texts) if t == "⊥"]
+        assert frames or name == "fold"
+        for i in frames:
+            assert (texts[i + 1], texts[i + 2]) == (zone, "A")

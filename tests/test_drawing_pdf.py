@@ -65,7 +65,7 @@ def test_pdf_text_holds_every_tolerance_and_iso_string(sheet: Sheet) -> None:
     must += [f.surface_imperfections for f in part.faces if f.polished]  # ISO 10110-7
     must += list(part.material_indications)  # ISO 10110-2, -3, -4
     must += ["nd = 1.5168 ±0.0005", "νd = 64.17 ±0.8 %", "ISO 2768-mK", "ISO 8015",
-             "IEC 60825-1", "ANSI Z136.1", "EX-1001-01", "Brewster expander prism", "±60″",
+             "IEC 60825-1", "ANSI Z136.1", "EX-1001-01", "Brewster expander prism", "±1′",
              "uncoated: Brewster", "bevel 0.3 max × 45°"]
     for s in must:
         assert s in text, s

@@ -11,7 +11,7 @@ from prismfab.drawing.sheet import (
 )
 from prismfab.drawing.views import arrowhead
 
-__all__ = ["datum_symbol", "face_label", "leader", "ray_path"]
+__all__ = ["datum_symbol", "face_label", "find_spot", "leader", "ray_path", "tolerance_frame"]
 
 P2 = tuple[float, float]
 
@@ -56,19 +56,37 @@ def _block(lines: tuple[str, ...], text_h: float) -> tuple[float, float]:
     return w, text_h + (len(lines) - 1) * LINE_PITCH * text_h
 
 
-def leader(tip: P2, lines: tuple[str, ...], *, text_h: float, placer: Placer,
-           prefer_deg: tuple[float, ...] = (45, 135, -45, -135, 60, 120, -60, -120, 30, 150, -30,
-                                            -150, 75, 105, -75, -105, 15, 165, -15, -165),
-           distances: tuple[float, ...] = (9, 13, 18, 24, 31, 40, 50, 62, 75, 90), arrow: bool = True,
-           towards: P2 | None = None, cross_views: bool = False) -> Leader | None:
-    """A leader from ``tip`` to a horizontal shoulder and a free text block; None if no room."""
-    w, h = _block(lines, text_h)
+PREFER_DEG = (45, 135, -45, -135, 60, 120, -60, -120, 30, 150, -30, -150, 75, 105, -75, -105, 15,
+              165, -15, -165)
+DISTANCES_MM = (9, 13, 18, 24, 31, 40, 50, 62, 75, 90)
+
+
+def _leg_is_clear(placer: Placer, tip: P2, elbow: P2, *, cross_views: bool) -> bool:
+    """A leader leg may not run through text, cross a line already drawn, or cross a view."""
+    start = add(tip, mul(unit(sub(elbow, tip)), 0.6))
+    if any(box_hits_segment(b, start, elbow) for b in placer.boxes):
+        return False
+    if placer.crosses_segments(start, elbow):
+        return False
+    return cross_views or not placer.crosses_region(start, elbow)
+
+
+def find_spot(tip: P2, w: float, h: float, *, placer: Placer, text_h: float,
+              prefer_deg: tuple[float, ...] = PREFER_DEG, distances: tuple[float, ...] = DISTANCES_MM,
+              towards: P2 | None = None, cross_views: bool = False
+              ) -> tuple[P2, P2, bool, tuple[float, float, float, float]] | None:
+    """Elbow, shoulder end, side (True = text right) and box of a free w x h block for a leader."""
     shoulder = 2.5
     if towards is not None:  # try directions nearest the preferred one first
         aim = math.degrees(math.atan2(towards[1], towards[0]))
         prefer_deg = tuple(sorted(prefer_deg, key=lambda a: abs((a - aim + 180.0) % 360.0 - 180.0)))
+    ext = placer.extent()
+    prefer_deg = tuple(prefer_deg) + tuple(a for a in (90, -90) if a not in prefer_deg)
+    best: tuple[float, tuple[P2, P2, bool, tuple[float, float, float, float]]] | None = None
     for d in distances:
-        for ang in prefer_deg:
+        if best is not None and d > distances[0] and best[0] <= d * 0.2:
+            break  # nothing farther out can beat a spot that keeps the views compact
+        for rank, ang in enumerate(prefer_deg):
             a = math.radians(ang)
             elbow = (tip[0] + d * math.cos(a), tip[1] + d * math.sin(a))
             right = math.cos(a) >= -1e-9
@@ -79,24 +97,95 @@ def leader(tip: P2, lines: tuple[str, ...], *, text_h: float, placer: Placer,
                    tx + w + 0.6 if right else tx + 0.6, top + 0.6)
             if not placer.free(box):
                 continue
-            if any(box_hits_segment(b, tip, elbow) and not box_hits_segment(b, tip, tip)
-                   for b in placer.boxes):
+            if (not _leg_is_clear(placer, tip, elbow, cross_views=cross_views)
+                    or placer.crosses_segments(elbow, end)):
                 continue
-            start = add(tip, mul(unit(sub(elbow, tip)), 0.6))
-            if not cross_views and placer.crosses_region(start, elbow):
-                continue
-            placer.add_box(box)
-            placer.add_path([tip, elbow, end])
-            return Leader((tip, elbow, end), lines, (tx, top), text_h,
-                          h_align="left" if right else "right", arrow=arrow)
-    return None
+            # Cost: paper the views grow by (they must fit the sheet), then leg length, then
+            # the preferred direction.
+            # Sideways growth costs more: the two views stand side by side on a sheet whose
+            # view area is taller than the views are.
+            grow = 0.0 if ext is None else (3.0 * (max(0.0, ext[0] - box[0]) + max(0.0, box[2] - ext[2]))
+                                            + max(0.0, ext[1] - box[1]) + max(0.0, box[3] - ext[3]))
+            cost = grow + 0.2 * d + 0.01 * rank
+            if best is None or cost < best[0] - 1e-9:
+                best = (cost, (elbow, end, right, box))
+    return None if best is None else best[1]
+
+
+def leader(tip: P2, lines: tuple[str, ...], *, text_h: float, placer: Placer,
+           prefer_deg: tuple[float, ...] = PREFER_DEG, distances: tuple[float, ...] = DISTANCES_MM,
+           arrow: bool = True, towards: P2 | None = None, cross_views: bool = False) -> Leader | None:
+    """A leader from ``tip`` to a horizontal shoulder and a free text block; None if no room.
+
+    The leg crosses no line, text or (unless ``cross_views``) view already on the sheet.
+    """
+    w, h = _block(lines, text_h)
+    spot = find_spot(tip, w, h, placer=placer, text_h=text_h, prefer_deg=prefer_deg,
+                     distances=distances, towards=towards, cross_views=cross_views)
+    if spot is None:
+        return None
+    elbow, end, right, box = spot
+    placer.add_box(box)
+    placer.add_path([tip, elbow, end])
+    tx = end[0] + (1.0 if right else -1.0)
+    top = elbow[1] + text_h / 2 + 0.2
+    return Leader((tip, elbow, end), lines, (tx, top), text_h, h_align="left" if right else "right",
+                  arrow=arrow)
+
+
+def tolerance_frame(tip: P2, cells: tuple[str, ...], *, text_h: float, placer: Placer,
+                    towards: P2 | None = None) -> tuple[Entity, ...]:
+    """An ISO 1101 tolerance frame (symbol | value | datum) with a leader arrow on the feature.
+
+    Returns no entities when no free spot is found (the tolerance block still states it).
+    """
+    pad = 1.2
+    widths = [max(text_h + 2 * pad, text_width_mm(c, text_h) + 2 * pad) for c in cells]
+    w, h = sum(widths), text_h + 2 * pad
+    spot = find_spot(tip, w, h + 1.0, placer=placer, text_h=text_h, towards=towards,
+                     distances=(8, 11, 15, 20, 26, 33, 41, 50))
+    if spot is None:
+        return ()
+    elbow, end, right, box = spot
+    placer.add_box(box)
+    placer.add_path([tip, elbow, end])
+    x0 = end[0] if right else end[0] - w
+    y0 = box[3] - 0.6 - h
+    out: list[Entity] = [Leader((tip, elbow, end), (), (x0, y0 + h), text_h, arrow=True)]
+    x = x0
+    for cell, cw in zip(cells, widths, strict=True):
+        out.append(Polyline(((x, y0), (x + cw, y0), (x + cw, y0 + h), (x, y0 + h)), closed=True,
+                            layer=Layer.ANNOTATION))
+        out.append(Text((x + cw / 2, y0 + h / 2), cell, text_h, h_align="center", v_align="middle",
+                        layer=Layer.ANNOTATION))
+        x += cw
+    return tuple(out)
 
 
 def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, placer: Placer
              ) -> tuple[Entity, ...]:
-    """Chief ray (narrow long-dash dot), direction arrow, label and polarisation mark."""
-    out: list[Entity] = [Polyline(points, line_type=LineType.CENTER, width=Width.NARROW,
-                                  layer=Layer.RAY)]
+    """Chief ray (narrow long-dash dot), direction arrows, label and polarisation mark.
+
+    The outside leads give way to text they would run through (the chain line is broken there).
+    """
+    def line(pts: tuple[P2, ...]) -> Polyline:
+        return Polyline(pts, line_type=LineType.CENTER, width=Width.NARROW, layer=Layer.RAY)
+
+    if len(points) >= 3:
+        lead_in = placer.visible_pieces(points[0], points[1])
+        lead_out = placer.visible_pieces(points[-2], points[-1])
+        inner = points[1:-1]
+        out: list[Entity] = [line(p) for p in lead_in[:-1]]
+        start = lead_in[-1][0] if lead_in and lead_in[-1][1] == points[1] else points[1]
+        end = lead_out[0][1] if lead_out and lead_out[0][0] == points[-2] else points[-2]
+        path = [start]
+        for p in (*inner, end):
+            if dist(p, path[-1]) > 1e-9:
+                path.append(p)
+        out.append(line(tuple(path)))
+        out += [line(p) for p in lead_out[1:]]
+    else:
+        out = [line(points)]
     placer.add_path(points)
     a, b = points[0], points[1]
     u = unit(sub(b, a))
@@ -113,19 +202,20 @@ def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, p
         mark_at = add(points[1], mul(sub(points[2], points[1]), 0.35))
     if note:
         n = (-u[1], u[0])
-        if note.lower().startswith("s"):  # E-field normal to the principal section: dot in circle
+        kind = note.lower()[:2]
+        if not kind.startswith("p"):  # E-field normal to the principal section: dot in circle
             out += [Circle(mark_at, 1.3, layer=Layer.RAY), Circle(mark_at, 0.35, layer=Layer.RAY)]
-        else:  # E-field in the principal section, normal to the ray: double arrow
+        if not kind.startswith("s"):  # E-field in the principal section, normal to the ray
             p, q = add(mark_at, mul(n, 3.0)), sub(mark_at, mul(n, 3.0))
             out += [Line(p, q, layer=Layer.RAY), arrowhead(p, n, length_mm=1.8, layer=Layer.RAY),
                     arrowhead(q, mul(n, -1.0), length_mm=1.8, layer=Layer.RAY)]
         placer.add_box((mark_at[0] - 3.2, mark_at[1] - 3.2, mark_at[0] + 3.2, mark_at[1] + 3.2))
     small = round(text_h * 0.72, 1)
-    inner = points[1:-1] if len(points) > 3 else points
-    tips = [mul(add(inner[k], inner[k + 1]), 0.5) for k in range(len(inner) - 1)] + [points[-1]]
+    # The label hangs from an outside lead (in or out) so its leg never crosses the section.
+    tips = [add(points[k], mul(sub(points[j], points[k]), f)) for f in (0.12, 0.3, 0.5)
+            for k, j in ((0, 1), (-1, -2))]
     for tip in tips:
-        lead = leader(tip, ("ray path for reference",), text_h=small, placer=placer, arrow=False,
-                      cross_views=True)
+        lead = leader(tip, ("ray path for reference",), text_h=small, placer=placer, arrow=False)
         if lead is not None:
             out.append(lead)
             break
@@ -133,7 +223,7 @@ def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, p
         from prismfab.drawing.tables import wrap
 
         lines = ("plane of incidence = drawing plane", *wrap(f"polarisation {note}", 62.0, small))
-        lead = leader(mark_at, lines, text_h=small, placer=placer, arrow=False, cross_views=True)
+        lead = leader(mark_at, lines, text_h=small, placer=placer, arrow=False)
         if lead is not None:
             out.append(lead)
     return tuple(out)

@@ -148,7 +148,13 @@ def _linear(msp: Any, e: LinearDim, sheet: Sheet) -> None:
 
 
 def _aligned(msp: Any, e: AlignedDim, sheet: Sheet) -> None:
-    dim = msp.add_aligned_dim(p1=e.p1, p2=e.p2, distance=e.offset_mm, text=e.text, dimstyle=DIMSTYLE,
+    import math
+
+    p1, p2, distance = e.p1, e.p2, e.offset_mm
+    direction = math.degrees(math.atan2(p2[1] - p1[1], p2[0] - p1[0]))
+    if abs((direction - e.text_rotation_deg + 180.0) % 360.0 - 180.0) > 90.0:
+        p1, p2, distance = p2, p1, -distance  # text runs along p1 -> p2: keep it readable
+    dim = msp.add_aligned_dim(p1=p1, p2=p2, distance=distance, text=e.text, dimstyle=DIMSTYLE,
                               override=_dim_override(e.scale), dxfattribs={"layer": e.layer.value})
     dim.set_location(e.text_pos, leader=False)
     dim.render()
@@ -178,6 +184,8 @@ def _leader(msp: Any, e: Leader, sheet: Sheet) -> None:
 
     msp.add_leader(e.points, dimstyle=DIMSTYLE, override={"dimasz": 2.5},
                    dxfattribs={"layer": e.layer.value, "has_arrowhead": 1 if e.arrow else 0})
+    if not e.lines:  # the leader of a tolerance frame: the frame is drawn on its own
+        return
     mt = msp.add_mtext("\\P".join(e.lines), dxfattribs={
         "layer": e.layer.value, "style": TEXT_STYLE, "char_height": e.height_mm,
         "line_spacing_factor": 0.9})

@@ -3,7 +3,7 @@
 Angles are written from the design value in degrees, minutes and seconds, rounded (never
 truncated) to the resolution the tolerance calls for: seconds when the tolerance is under 10′,
 minutes otherwise; trailing zero fields are dropped (``36°08′``), minutes and seconds carry two
-digits. Lengths carry as many decimals as their tolerance. One decimal sign for the whole sheet.
+digits. Tolerances follow the trade: seconds under 1′, else minutes and seconds (``±1′30″``). Lengths carry as many decimals as their tolerance. One decimal sign for the whole sheet.
 """
 
 from __future__ import annotations
@@ -39,13 +39,26 @@ def dms(value_deg: float, *, resolution_arcsec: int = 1) -> str:
 
 
 def angle_tolerance_text(tol_arcsec: float) -> str:
-    """``±60″``, ``±10′`` or ``±1°30′``: seconds below 10′, else the coarsest exact unit."""
-    t = _round_half_up(tol_arcsec)
-    if t < 600 or t % 60:
-        return f"±{t}{SEC}" if t < 3600 else f"±{dms(t / 3600.0)}"
-    if t < 3600:
-        return f"±{t // 60}{MIN}"
-    return f"±{dms(t / 3600.0)}"
+    """An angle tolerance the way the optics trade writes it.
+
+    Under one minute in seconds (``±30″``; one decimal below 10″ when not whole, ``±2.5″``); from
+    one minute on in degrees, minutes and seconds with the zero fields dropped (``±1′``, ``±5′``,
+    ``±1′30″``, ``±1°``, ``±1°30′``), never a seconds count above 59 (``±300″`` reads ``±5′``).
+    """
+    t = abs(tol_arcsec)
+    if t < 59.95:
+        if t < 10.0 and abs(t - round(t)) > 1e-6:
+            return f"±{t:.1f}{SEC}"
+        return f"±{_round_half_up(t)}{SEC}"
+    total = _round_half_up(t)
+    d, rem = divmod(total, 3600)
+    m, s = divmod(rem, 60)
+    text = f"{d}{DEG}" if d else ""
+    if m or (d and s):
+        text += f"{m}{MIN}"
+    if s:
+        text += f"{s}{SEC}"
+    return f"±{text}"
 
 
 def angle_text(value_deg: float, tol_arcsec: float | None = None) -> str:

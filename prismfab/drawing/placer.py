@@ -49,6 +49,18 @@ class Placer:
                 return True
         return False
 
+    def extent(self) -> Rect | None:
+        """Bounding box of everything placed so far (paper mm), None when empty."""
+        xs = [x for b in self.boxes for x in (b[0], b[2])] + [p[0] for s in self.segments for p in s]
+        ys = [y for b in self.boxes for y in (b[1], b[3])] + [p[1] for s in self.segments for p in s]
+        if not xs:
+            return None
+        return min(xs), min(ys), max(xs), max(ys)
+
+    def crosses_segments(self, p: P2, q: P2) -> bool:
+        """True when segment p-q properly crosses a line already placed."""
+        return any(_segments_cross(p, q, a, b) for a, b in self.segments)
+
     def in_region(self, p: P2) -> bool:
         """True when the point lies inside a view outline."""
         return any(_contains(r, p) for r in self.regions)
@@ -66,6 +78,33 @@ class Placer:
             t -= 0.5
         return (p[0] + (q[0] - p[0]) * minimum / length, p[1] + (q[1] - p[1]) * minimum / length)
 
+    def visible_pieces(self, p: P2, q: P2, *, gap_mm: float = 0.8) -> list[tuple[P2, P2]]:
+        """Segment p-q broken where it would run through text (a chain line gives way to text)."""
+        import math
+
+        length = math.hypot(q[0] - p[0], q[1] - p[1])
+        if length < 1e-9:
+            return []
+        blocked = []
+        for b in self.boxes:
+            grown = (b[0] - gap_mm, b[1] - gap_mm, b[2] + gap_mm, b[3] + gap_mm)
+            span = _clip(grown, p, q)
+            if span is not None:
+                blocked.append(span)
+        pieces: list[tuple[float, float]] = []
+        t = 0.0
+        for a, b in sorted(blocked):
+            if a > t:
+                pieces.append((t, a))
+            t = max(t, b)
+        if t < 1.0:
+            pieces.append((t, 1.0))
+
+        def at(u: float) -> P2:
+            return p[0] + (q[0] - p[0]) * u, p[1] + (q[1] - p[1]) * u
+
+        return [(at(a), at(b)) for a, b in pieces if (b - a) * length >= 1.0]
+
     def inside(self, box: Rect) -> bool:
         x0, y0, x1, y1 = self.area
         return box[0] >= x0 and box[1] >= y0 and box[2] <= x1 and box[3] <= y1
@@ -81,6 +120,26 @@ class Placer:
         if any(boxes_overlap(box, b) for b in self.boxes):
             return False
         return ignore_segments or not any(box_hits_segment(box, p, q) for p, q in self.segments)
+
+
+def _clip(box: Rect, p: P2, q: P2) -> tuple[float, float] | None:
+    """Parameter span of segment p-q inside the box (Liang-Barsky), or None."""
+    x0, y0, x1, y1 = box
+    dx, dy = q[0] - p[0], q[1] - p[1]
+    t0, t1 = 0.0, 1.0
+    for pk, qk in ((-dx, p[0] - x0), (dx, x1 - p[0]), (-dy, p[1] - y0), (dy, y1 - p[1])):
+        if abs(pk) < 1e-12:
+            if qk < 0:
+                return None
+            continue
+        t = qk / pk
+        if pk < 0:
+            t0 = max(t0, t)
+        else:
+            t1 = min(t1, t)
+        if t0 > t1:
+            return None
+    return t0, t1
 
 
 def _contains(polygon: tuple[P2, ...], p: P2) -> bool:

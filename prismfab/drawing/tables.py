@@ -144,12 +144,19 @@ def tolerance_table(part: Part, x: float, top: float, width: float, *, text_h: f
                     decimal_comma: bool = False) -> tuple[tuple[Entity, ...], float]:
     """The boxed block of angle, pyramidal and size tolerances; returns entities and its bottom."""
     t = part.tolerances
-    functional = ", ".join(f"{part.faces[i - 1].label}/{part.faces[i].label}"
-                           for i in sorted(set(part.functional_angles)))
+    from prismfab.drawing.dims import plan_dimensions
+
+    plan = plan_dimensions(part)
+    labels = [f.label for f in part.faces]
+    pairs = [f"{labels[i - 1]}/{labels[i]}" for i, k in enumerate(plan.angles) if k == "functional"]
+    pairs += [f"{labels[c.first]}/{labels[c.second]} across {', '.join(labels[k] for k in c.between)}"
+              for c, k in zip(plan.cross, plan.cross_kinds, strict=True) if k == "functional"]
+    functional = ", ".join(pairs)
     n = lambda v, d: fmt.number_text(v, d, decimal_comma=decimal_comma)  # noqa: E731
     rows = [
         ("Functional angles", f"{fmt.angle_tolerance_text(t.angle_arcsec)} (edges {functional})"),
-        ("Pyramidal error", f"≤ {round(t.pyramidal_arcsec):d}″, each optical face to datum A"),
+        ("Pyramidal error", f"≤ {fmt.angle_tolerance_text(t.pyramidal_arcsec).lstrip('±')}, each "
+                            "optical face to datum A"),
         ("Face lengths", f"±{n(t.length_mm, fmt.tol_decimals(t.length_mm))} mm unless stated"),
         ("Height", f"±{n(t.height_mm, fmt.tol_decimals(t.height_mm))} mm"),
         ("Non-optical features", "ISO 2768-mK"),
@@ -183,7 +190,7 @@ def general_notes(part: Part, *, scale_text: str) -> tuple[str, ...]:
         "All faces not listed in the face table fine ground.",
         bevel_note,
     ]
-    if sharp:
+    if sharp and not any("sharp" in n.lower() for n in part.notes):
         notes.append(f"Edges {sharp} sharp, no bevel; chips per the E term of 5/, outside the clear "
                      "aperture.")
     notes += list(part.notes)
