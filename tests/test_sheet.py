@@ -41,7 +41,7 @@ def test_specification_states_every_face_requirement(tmp_path: Path) -> None:
             assert face.coating_text in text
     for indication in part.material_indications:
         assert indication in text
-    assert "± 60″" in text and "≤ 60″" in text and "± 0.10 mm" in text
+    assert "±1′" in text and "≤ 1′" in text and "± 0.10 mm" in text
     assert "97.0 %" in text
     assert "IEC 60825-1" in text and "ANSI Z136.1" in text
     assert "Melt data requested" in text

@@ -14,6 +14,7 @@ import os
 from pathlib import Path
 from typing import Any
 
+from prismfab.drawing.fmt import angle_tolerance_text
 from prismfab.model import DocumentInfo, FaceRole, Part
 from prismfab.sheet import text as T
 
@@ -104,8 +105,9 @@ def _tolerance_rows(part: Part) -> list[list[str]]:
     tol = part.tolerances
     rows = [
         ["Quantity", "Tolerance"],
-        ["Functional angles", f"± {tol.angle_arcsec:.0f}″"],
-        ["Pyramidal error (any optical face)", f"≤ {tol.pyramidal_arcsec:.0f}″"],
+        ["Functional angles", angle_tolerance_text(tol.angle_arcsec)],
+        ["Pyramidal error (any optical face)",
+         "≤ " + angle_tolerance_text(tol.pyramidal_arcsec).lstrip("±")],
         ["Face lengths", f"± {tol.length_mm:.2f} mm"],
         ["Height", f"± {tol.height_mm:.2f} mm"],
         ["Surface form", "per polished face, as its 3/ indication in section 1 "

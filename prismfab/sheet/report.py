@@ -12,6 +12,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
+from prismfab.drawing.fmt import angle_tolerance_text
 from prismfab.model import Pose, Prism
 
 __all__ = ["layout_drawing", "line_plot", "report_story", "system_report"]
@@ -193,7 +194,8 @@ def _tolerance_rows(solution: Any) -> list[list[str]]:
              "Cost index"]]
     for part in solution.parts:
         t = part.tolerances
-        rows.append([part.number, f"± {t.angle_arcsec:.0f}″", f"≤ {t.pyramidal_arcsec:.0f}″",
+        rows.append([part.number, angle_tolerance_text(t.angle_arcsec),
+                     "≤ " + angle_tolerance_text(t.pyramidal_arcsec).lstrip("±"),
                      f"± {t.length_mm:.2f} mm",
                      f"{t.surface_form_fringes[0]:g}({t.surface_form_fringes[1]:g}) fr",
                      f"{100 * t.yield_fraction:.1f} %", t.driving or "-", f"{t.cost_index:.2f}"])
