@@ -160,7 +160,7 @@ def planar_faces(shape: cq.Shape) -> list[tuple[np.ndarray, float, cq.Face]]:
     return out
 
 
-def face_on(shape: cq.Shape, normal: np.ndarray, offset: float) -> cq.Face:
+def face_with_plane(shape: cq.Shape, normal: np.ndarray, offset: float) -> cq.Face:
     """The one planar face with this outward normal and plane offset."""
     hits = [f for n, c, f in planar_faces(shape)
             if float(n @ normal) > 1 - 1e-12 and abs(c - offset) < 1e-6]
@@ -244,7 +244,7 @@ def test_part_step_reads_back(name: str, tmp_path: Path) -> None:
     # angles between every pair of optical face normals, from the re-imported planes
     normals = outward_normals(part)
     v = np.array(part.prism.vertices_mm)
-    found = {f.label: face_on(solid, normals[i], float(normals[i][:2] @ v[i])).normalAt().toTuple()
+    found = {f.label: face_with_plane(solid, normals[i], float(normals[i][:2] @ v[i])).normalAt().toTuple()
              for i, f in enumerate(part.prism.faces)}
     optical = [(i, f.label) for i, f in enumerate(part.prism.faces) if f.role.is_optical]
     for i, a in optical:
@@ -305,7 +305,7 @@ def test_builder_bevels(name: str) -> None:
     assert built.method is ChamferMethod.BUILDER
     rows = design_halfspaces(part)
     for row in rows[len(part.prism.faces) + 2:]:
-        face_on(solid, row[:3], -row[3])  # the bevel plane exists exactly once
+        face_with_plane(solid, row[:3], -row[3])  # the bevel plane exists exactly once
     legs = [b.leg_mm for b in bevels(part)]
     corners = 2 * len(part.prism.faces)
     assert abs(solid.Volume() - planar_design_volume(part)) <= corners * max(legs) ** 3
@@ -316,8 +316,8 @@ def test_sharp_edge_stays_sharp() -> None:
     part = sample_part()
     solid = part_solid(part)
     normals, v = outward_normals(part), np.array(part.prism.vertices_mm)
-    fb = face_on(solid, normals[1], float(normals[1][:2] @ v[1]))
-    fc = face_on(solid, normals[2], float(normals[2][:2] @ v[2]))
+    fb = face_with_plane(solid, normals[1], float(normals[1][:2] @ v[1]))
+    fc = face_with_plane(solid, normals[2], float(normals[2][:2] @ v[2]))
     assert any(e.isSame(g) for e in fb.Edges() for g in fc.Edges())
 
 
