@@ -17,10 +17,11 @@ heavy is imported (no CAD, drawing or PDF library).
                facts[]: [name, value, unit], tuning[]: [M, rotation per prism deg...],
                warnings[] (solver, measurement and the checks listed below)
 
-``--write-lock FILE`` writes the spec back with a ``# solved:`` comment block holding the exact
-section vertices and poses and the prismfab version: the file stays a valid spec for the
-loader (comments are ignored), the solver is deterministic, and the block lets a later run be
-checked against the recorded geometry.
+``--write-lock FILE`` writes the spec back with a ``lock:`` section (``prismfab.design.lock``):
+the prismfab version, digests of the inputs, and per prism the exact section vertices, height
+and pose. Loading and solving that file gives exactly the same prisms; a lock whose inputs no
+longer match the spec is refused, naming the changed sections. An existing ``lock:`` section is
+replaced.
 
 Warnings added here: a TIR margin under 2 deg, an antireflection face above 60 deg incidence,
 and a back reflection within the ghost limit (2 mrad) of the source (laser safety: IEC 60825-1,
@@ -199,16 +200,11 @@ def table(data: dict) -> str:
 
 
 def write_lock(spec, sol, path: Path) -> None:  # type: ignore[no-untyped-def]
-    """Write the spec text plus a ``# solved:`` comment block, atomically."""
-    from prismfab import __version__
+    """Write the spec text with its ``lock:`` section (replacing an old one), atomically."""
+    from prismfab.design.lock import lock_yaml
 
     text = Path(spec.source).read_text(encoding="utf-8") if spec.source else ""
-    rec = [f"# solved: prismfab {__version__}, family {sol.system.family}"]
-    for p in sol.system.prisms:
-        verts = ", ".join(f"[{x:.9f}, {y:.9f}]" for x, y in p.vertices_mm)
-        rec.append(f"#   {p.name}: material '{p.material}', height_mm {p.height_mm:.4f}, vertices_mm [{verts}]")
-        rec.append(f"#     pose rotation {list(p.pose.rotation)}, translation_mm {list(p.pose.translation_mm)}")
-    body = text.rstrip("\n") + "\n\n" + "\n".join(rec) + "\n"
+    body = _without_lock(text).rstrip("\n") + "\n\n" + lock_yaml(spec, sol.system)
     try:
         fd, tmp = tempfile.mkstemp(dir=path.parent or Path("."), prefix=".lock-")
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
@@ -216,3 +212,15 @@ def write_lock(spec, sol, path: Path) -> None:  # type: ignore[no-untyped-def]
         os.replace(tmp, path)
     except OSError as err:
         raise OutputError(f"cannot write the lock file {path}: {err.strerror or err}") from err
+
+
+def _without_lock(text: str) -> str:
+    """The spec text without a top-level ``lock:`` block (and its indented lines)."""
+    out, skipping = [], False
+    for line in text.splitlines(keepends=True):
+        top = line[:1] not in (" ", "\t", "\n", "\r", "#", "")
+        if top:
+            skipping = line.split(":", 1)[0].strip() == "lock"
+        if not skipping:
+            out.append(line)
+    return "".join(out)

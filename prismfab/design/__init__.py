@@ -5,7 +5,8 @@ name = family value with "-" replaced by "_"). Each family returns a sized, veri
 ``System``: prisms at their poses with final section polygons, face roles and coatings, the
 beam, solver facts, tuning rows, warnings, clear apertures and AOI ranges. Shared helpers live
 in ``design.common`` (geometry, 2D trace, assembly) and ``design.sizing`` (footprint -> clear
-aperture -> face length -> polygon).
+aperture -> face length -> polygon). A spec with a ``lock:`` section gets the locked geometry
+(``design.lock``).
 """
 
 from __future__ import annotations
@@ -26,6 +27,7 @@ def solve(spec: Spec) -> System:
         SolveError: no geometry meets the targets (the message gives the reachable range).
         DesignCheckError: the solved design breaks a rule (clear aperture, size limit).
         MaterialError: a material is unknown or used outside its range.
+        SpecError: the spec's ``lock`` was written for other inputs.
     """
     name = spec.family.value.replace("-", "_")
     try:
@@ -35,4 +37,9 @@ def solve(spec: Spec) -> System:
             raise
         raise SolveError("design.family", f"no solver for the family '{spec.family.value}' "
                          "is installed in this build") from err
-    return module.design(spec)
+    system = module.design(spec)
+    if spec.lock is not None:
+        from prismfab.design.lock import apply_lock
+
+        system = apply_lock(spec, system)
+    return system

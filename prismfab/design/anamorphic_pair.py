@@ -17,17 +17,22 @@ from the closed form of optics.md section 4.1, with four equations:
   over-constrained otherwise, optics.md section 4.4), and the result is reported honestly,
   with a warning when an incidence lands above 80 deg.
 
-Tuning: with the apex angles fixed, rotating both prisms keeps the output parallel along a
-one-parameter family; the reachable range of M (incidence <= 85 deg, no TIR) is reported, and
-for ``tuning_range`` the rotations per M are tabulated and the faces are sized over them.
+Tuning (``design._pair_tuning``): with the apex angles fixed, rotating both prisms keeps the
+output parallel along a one-parameter family. Two ranges are reported: the angle limits alone
+(every incidence and exit angle <= 80 deg, no TIR), and what the sized prisms can do (beam
+inside every clear aperture, rotated prisms not touching). For ``tuning_range`` the rotations
+per M are tabulated and the faces are sized over them; without it the table spans the design
+M x/÷ 1.1 within the sized prisms' reach, and the facts say so.
 """
 
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 
+from prismfab.design import _pair_tuning as tuning
 from prismfab.design import sizing
 from prismfab.design.common import (
     PrismAngles,
@@ -171,36 +176,6 @@ def _solve(x0: np.ndarray, magnification: float, ns: tuple[float, float], dns: t
 _DISP_SCALE = 10.0  # rad/um -> comparable with angle residuals in rad
 
 
-def _tune(p: tuple[PrismAngles, PrismAngles], ns: tuple[float, float], m_target: float,
-          x0: np.ndarray) -> np.ndarray | None:
-    """Rotations (rad) of P1, P2 giving magnification ``m_target`` with parallel output."""
-
-    def residual(x: np.ndarray) -> np.ndarray:
-        pr = [p[0].rotated(x[0]), p[1].rotated(x[1])]
-        theta, mag, ev = propagate_angles(0.0, pr, ns)
-        if max(abs(e.incidence_rad) for e in ev) > math.radians(MAX_INCIDENCE_DEG):
-            raise ValueError("grazing")
-        return np.array([math.log(mag) - math.log(m_target), theta])
-
-    return newton(residual, x0, max_iter=20)
-
-
-def reachable_range(p: tuple[PrismAngles, PrismAngles], ns: tuple[float, float], m0: float
-                    ) -> tuple[float, float]:
-    """Range of M reachable by rotating both prisms with the output kept parallel."""
-    ends = []
-    for factor in (1.12, 1 / 1.12):
-        m, x, last = m0, np.zeros(2), m0
-        for _ in range(30):  # at most a factor 30 either way
-            m *= factor
-            x_new = _tune(p, ns, m, x)
-            if x_new is None:
-                break
-            x, last = x_new, m
-        ends.append(last)
-    return min(ends), max(ends)
-
-
 def design(spec: Spec) -> System:
     """Solve, size and assemble an anamorphic pair (see the module docstring).
 
@@ -267,28 +242,64 @@ def design(spec: Spec) -> System:
     return _build(spec, d, pair, mats, ns, warnings)
 
 
-def _tuning_rows(spec: Spec, d: AnamorphicPairDesign, pair: tuple[PrismAngles, PrismAngles],
+def _tuning_rows(d: AnamorphicPairDesign, pair: tuple[PrismAngles, PrismAngles],
                  ns: tuple[float, float]) -> tuple[list[tuple[float, float, float]], tuple[float, float]]:
-    lo, hi = reachable_range(pair, ns, d.magnification)
+    """Rows over ``tuning_range`` (5 M values), and the angle-limited range of M.
+
+    Raises:
+        SolveError: the tuning range passes the angle limits (or no rotation reaches an M).
+    """
+    lo, hi = tuning.angle_range(pair, ns, d.magnification, max_incidence_deg=MAX_INCIDENCE_DEG)
     if d.tuning_range is None:
         return [], (lo, hi)
     t_lo, t_hi = d.tuning_range
+    reach = f"M = {lo:.3f} to {hi:.3f} (incidence <= {MAX_INCIDENCE_DEG:g} deg, no TIR)"
     if t_lo < lo * (1 - 1e-9) or t_hi > hi * (1 + 1e-9):
         raise SolveError("design.tuning_range",
                          f"rotating the prisms reaches M = {lo:.3f} to {hi:.3f} with the output "
-                         f"parallel; the range {t_lo:g} to {t_hi:g} is not reachable",
-                         reachable=f"M = {lo:.3f} to {hi:.3f}")
-    rows = []
-    for mt in np.linspace(t_lo, t_hi, 5):
-        x = np.zeros(2)
-        steps = max(2, int(abs(math.log(mt / d.magnification)) / 0.02) + 1)
-        for mm in np.geomspace(d.magnification, mt, steps):
-            x = _tune(pair, ns, float(mm), x)
-            if x is None:
-                raise SolveError("design.tuning_range", f"the tuning solution is lost at M = {mm:.3f}",
-                                 reachable=f"M = {lo:.3f} to {hi:.3f}")
-        rows.append((round(float(mt), 6), math.degrees(x[0]), math.degrees(x[1])))
+                         f"parallel and every incidence at most {MAX_INCIDENCE_DEG:g} deg; the "
+                         f"range {t_lo:g} to {t_hi:g} is not reachable", reachable=reach)
+    rows = tuning.rows_over(pair, ns, d.magnification, np.linspace(t_lo, t_hi, 5),
+                            max_incidence_deg=MAX_INCIDENCE_DEG)
+    if rows is None:
+        raise SolveError("design.tuning_range", "the tuning solution is lost inside the range",
+                         reachable=reach)
     return rows, (lo, hi)
+
+
+DEFAULT_SPAN = 1.10
+"""Without ``tuning_range`` the table spans the design M times/over this, within the parts' reach."""
+
+
+def _tuning_table(spec: Spec, d: AnamorphicPairDesign, system: System, drafts: list,
+                  pair: tuple[PrismAngles, PrismAngles], ns: tuple[float, float],
+                  rows: list, angle_reach: tuple[float, float]) -> System:
+    """Add the reachable ranges (angle limits, and the sized parts) and the tuning table."""
+    m0 = d.magnification
+    lo, hi = tuning.part_range(spec, system, drafts, pair, ns, m0,
+                               max_incidence_deg=MAX_INCIDENCE_DEG)
+    lim = f"{MAX_INCIDENCE_DEG:g}"
+    facts = list(system.facts) + [
+        (f"tuning range M min (angle limits: incidence <= {lim} deg, no TIR)", angle_reach[0], ""),
+        (f"tuning range M max (angle limits: incidence <= {lim} deg, no TIR)", angle_reach[1], ""),
+        ("tuning range M min (these prisms: beam inside the clear apertures)", lo, ""),
+        ("tuning range M max (these prisms: beam inside the clear apertures)", hi, "")]
+    if d.tuning_range is not None:
+        t_lo, t_hi = d.tuning_range
+        if t_lo < lo * (1 - 1e-6) or t_hi > hi * (1 + 1e-6):
+            raise SolveError("design.tuning_range", f"the sized prisms hold the beam from "
+                             f"M = {lo:.3f} to {hi:.3f} only (the rotated prisms touch, or the "
+                             "beam leaves a clear aperture)",
+                             reachable=f"M = {lo:.3f} to {hi:.3f}, or a larger separation_mm")
+    else:
+        span = (max(lo, m0 / DEFAULT_SPAN), min(hi, m0 * DEFAULT_SPAN))
+        rows = tuning.rows_over(pair, ns, m0, np.linspace(span[0], span[1], 5),
+                                max_incidence_deg=MAX_INCIDENCE_DEG) or []
+        facts += [("tuning table: default span (no tuning_range; prisms sized for the design "
+                   "M only), M min", span[0], ""),
+                  ("tuning table: default span (no tuning_range; prisms sized for the design "
+                   "M only), M max", span[1], "")]
+    return replace(system, facts=tuple(facts), tuning=tuple(tuple(r) for r in rows))
 
 
 def triangle_for(pa: PrismAngles, entry: np.ndarray, s: float, closing: str) -> sizing.Triangle:
@@ -310,7 +321,7 @@ def triangle_for(pa: PrismAngles, entry: np.ndarray, s: float, closing: str) -> 
 
 def _build(spec: Spec, d: AnamorphicPairDesign, pair: tuple[PrismAngles, PrismAngles], mats: list,
            ns: tuple[float, float], warnings: list[str]) -> System:
-    rows, (lo, hi) = _tuning_rows(spec, d, pair, ns)
+    rows, (lo, hi) = _tuning_rows(d, pair, ns)
     rot1 = (0.0, *(math.radians(r[1]) for r in rows))
     rot2 = (0.0, *(math.radians(r[2]) for r in rows))
     states = len(rot1)
@@ -320,7 +331,7 @@ def _build(spec: Spec, d: AnamorphicPairDesign, pair: tuple[PrismAngles, PrismAn
         closing = "bisector"
     idx = [lambda wl, m_=m_: float(m_.n(wl)) for m_ in mats]
     start = -1.0e3
-    groups = sizing.beam_groups(spec, start_z_mm=start, states=states)
+    groups = sizing.beam_groups(spec, start_z_mm=start, states=states, pivot_z_mm=0.0)
     # P1
     e1 = np.zeros(2)
 
@@ -370,8 +381,9 @@ def _build(spec: Spec, d: AnamorphicPairDesign, pair: tuple[PrismAngles, PrismAn
         sizing.Draft("P1", mats[0].key, idx[0], t1.vertices, t1.roles, t1.notes, e1, rot1),
         sizing.Draft("P2", mats[1].key, idx[1], t2.vertices, t2.roles, t2.notes, e2, rot2),
     ]
-    facts = _facts(spec, pair, mats, ns, sep, drafts, (lo, hi))
-    return sizing.finish_system(spec, drafts, facts=facts, tuning=rows, warnings=warnings)
+    facts = _facts(spec, pair, mats, ns, sep, drafts)
+    system = sizing.finish_system(spec, drafts, facts=facts, warnings=warnings, pivot_z_mm=0.0)
+    return _tuning_table(spec, d, system, drafts, pair, ns, rows, (lo, hi))
 
 
 def _compact(place2, clash, p1: sizing.Placed, x1: np.ndarray, th1: float, states: int):
@@ -414,7 +426,7 @@ def _compact(place2, clash, p1: sizing.Placed, x1: np.ndarray, th1: float, state
 
 
 def _facts(spec: Spec, pair: tuple[PrismAngles, PrismAngles], mats: list, ns: tuple[float, float],
-           sep: float, drafts: list, reach: tuple[float, float]) -> list[tuple[str, float, str]]:
+           sep: float, drafts: list) -> list[tuple[str, float, str]]:
     wl0 = spec.beam.wavelength_nm
     _t, mag, ev = propagate_angles(0.0, pair, ns)
     facts: list[tuple[str, float, str]] = [("magnification (angle model)", mag, "")]
@@ -434,5 +446,4 @@ def _facts(spec: Spec, pair: tuple[PrismAngles, PrismAngles], mats: list, ns: tu
     for wl in sizing.wavelengths_nm(spec)[1:]:
         th, _m, _e = propagate_angles(0.0, pair, [float(m_.n(wl)) for m_ in mats])
         facts.append((f"pointing at {wl:g} nm", th * 1e3, "mrad"))
-    facts += [("tuning range M min", reach[0], ""), ("tuning range M max", reach[1], "")]
     return facts

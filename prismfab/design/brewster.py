@@ -90,7 +90,7 @@ def _design(spec: Spec, walk_factor: float) -> System:
         walk *= (1.0 + spec.fabrication.clear_aperture_margin) * walk_factor
         al = replace(spec.beam.alignment, decenter_mm=spec.beam.alignment.decenter_mm + walk)
         sizing_spec = replace(spec, beam=replace(spec.beam, alignment=al))
-    groups = sizing.beam_groups(sizing_spec, start_z_mm=-1.0e3)
+    groups = sizing.beam_groups(sizing_spec, start_z_mm=-1.0e3, pivot_z_mm=0.0)
     t = sizing.size_triangle(sizing_spec, make=lambda s: triangle_for(pa, e, s, "bisector"),
                              trace=trace, section=0, path="design")
     notes = tuple("Brewster surface" if r.transmits else nt for r, nt in zip(t.roles, t.notes,
@@ -109,7 +109,7 @@ def _design(spec: Spec, walk_factor: float) -> System:
         p2, facts2 = _second(spec, d, p1, mat, t)
         drafts.append(p2)
         facts += facts2
-    return sizing.finish_system(spec, drafts, facts=facts, warnings=warnings)
+    return sizing.finish_system(spec, drafts, facts=facts, warnings=warnings, pivot_z_mm=0.0)
 
 
 def _second(spec: Spec, d: BrewsterDesign, p1: sizing.Draft, mat, t: sizing.SizedTriangle):

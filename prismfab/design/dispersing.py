@@ -85,7 +85,7 @@ def design(spec: Spec) -> System:
     disp = ddelta_dn_min_dev(apex, n) * abs(dn)
     idx = lambda wl: float(mat.n(wl))  # noqa: E731
     e = np.zeros(2)
-    groups = sizing.beam_groups(spec, start_z_mm=-1.0e3)
+    groups = sizing.beam_groups(spec, start_z_mm=-1.0e3, pivot_z_mm=0.0)
 
     def trace(verts: np.ndarray, roles: tuple) -> list:
         return sizing.trace_groups([sizing.Placed(verts, roles, idx, e)], groups, sequential=True)
@@ -108,7 +108,7 @@ def design(spec: Spec) -> System:
              ("base length filled by the beam", w_um * ddelta_dn_min_dev(apex, n) * 1e-3, "mm")]
     if d.littrow:
         facts.append(("Littrow prism apex", math.degrees(apex / 2), "deg"))
-    return sizing.finish_system(spec, [draft], facts=facts)
+    return sizing.finish_system(spec, [draft], facts=facts, pivot_z_mm=0.0)
 
 
 def _littrow_triangle(pa: PrismAngles, entry: np.ndarray, s: float) -> sizing.Triangle:

@@ -120,11 +120,22 @@ class RayGroup:
     rays: tuple[tuple[np.ndarray, float], ...]
 
 
-def beam_groups(spec: Spec, *, start_z_mm: float, states: int = 1) -> tuple[RayGroup, ...]:
+def beam_groups(spec: Spec, *, start_z_mm: float, states: int = 1,
+                pivot_z_mm: float | None = None) -> tuple[RayGroup, ...]:
     """The conditions a design is sized over: band x tuning states x alignment cases.
 
     The input chief ray is the system z axis. Edge rays sit at +/- the in-plane 1/e^2 radius
-    and lean outwards by half the full in-plane divergence.
+    and lean outwards by half the full in-plane divergence; tilted cases lean by the alignment
+    tilt.
+
+    Args:
+        spec: the spec (beam, band, alignment allowance).
+        start_z_mm: z where the rays start (upstream of every prism).
+        states: number of tuning states.
+        pivot_z_mm: z of the plane where the beam has its stated diameter and about which the
+            divergence and the alignment tilt lean the rays (the first entry face). None: the
+            start plane itself. Leaning about a plane far upstream would turn an angular
+            allowance into a decentre of ``tilt x distance`` at the prism.
     """
     b = spec.beam
     half = b.diameter_in_plane_mm / 2.0
@@ -140,9 +151,9 @@ def beam_groups(spec: Spec, *, start_z_mm: float, states: int = 1) -> tuple[RayG
             for case, (dx, dt) in cases.items():
                 if case != "nominal" and dx == 0.0 and dt == 0.0:
                     continue
-                rays = [(np.array([start_z_mm, dx]), dt),
-                        (np.array([start_z_mm, dx - half]), dt - div),
-                        (np.array([start_z_mm, dx + half]), dt + div)]
+                lever = 0.0 if pivot_z_mm is None else pivot_z_mm - start_z_mm
+                rays = [(np.array([start_z_mm, x0 - lever * math.tan(a)]), a)
+                        for x0, a in ((dx, dt), (dx - half, dt - div), (dx + half, dt + div))]
                 out.append(RayGroup(state, wl, case, tuple(rays)))
     return tuple(out)
 
@@ -340,20 +351,29 @@ def size_triangle(
             cas.append(clear_aperture(fps, margin) if fps else None)
         return cas, complete
 
+    def shortfall(cas_: list) -> list[float]:
+        needs_ = []
+        for lo, hi in cas_:
+            clear = 0.0 if light_at_apex else cut + leg_apex + border_mm(hi - lo, grade)
+            needs_.append(clear - lo)
+        return needs_
+
     prev: tuple[float, list] | None = None
+    s_bad = 0.0  # largest entry offset seen that does not hold the beam
     for _ in range(60):
         cas, complete = apertures(s)
         if not complete:  # part of the beam misses a face: move it away from the apex
-            s, prev = 1.5 * s + 0.5, None
+            s_bad, s, prev = s, 1.5 * s + 0.5, None
             if s > 100.0 * max(spec.beam.diameter_in_plane_mm, 1.0):
-                break
+                raise DesignCheckError(path, "part of the beam misses a face however far it is "
+                                       "kept from the apex (the prisms are too close or too "
+                                       "small for the beam)")
             continue
-        needs = []
-        for lo, hi in cas:
-            clear = 0.0 if light_at_apex else cut + leg_apex + border_mm(hi - lo, grade)
-            needs.append(clear - lo)
+        needs = shortfall(cas)
         if max(needs) <= 1e-7:
+            s, cas = _shrink(s_bad, s, cas, apertures, shortfall)
             break
+        s_bad = s
         # the footprints move linearly with s: step by the slope seen so far (secant)
         step = max(needs) * 1.02
         if prev is not None and s != prev[0]:
@@ -396,6 +416,35 @@ def size_triangle(
             f"a face of {max(lengths):.1f} mm is needed, above the limit of {fab.max_face_mm:g} mm",
             reachable="raise fabrication.max_face_mm, or reduce the beam size or the magnification")
     return SizedTriangle(verts, roles, notes, s, closing, flat)
+
+
+def _shrink(s_bad: float, s_good: float, cas: list, apertures: Callable, shortfall: Callable
+            ) -> tuple[float, list]:
+    """Bisect back towards the smallest entry offset that holds the beam.
+
+    The secant steps of ``size_triangle`` assume footprints that move linearly with the entry
+    offset; where they do not (a condition whose rays first meet a face near the apex), a step
+    can overshoot far past the smallest size, and the prism comes out needlessly large. The
+    bracket [s_bad, s_good] is narrowed until it is within 0.5 % (or 0.01 mm); one trace at
+    ``0.98 s_good`` first tells whether there is anything to gain (the usual, linear case).
+    """
+    probe = 0.98 * s_good
+    if probe <= s_bad:
+        return s_good, cas
+    cas_probe, complete = apertures(probe)
+    if not (complete and max(shortfall(cas_probe)) <= 1e-7):
+        return s_good, cas
+    s_good, cas = probe, cas_probe
+    for _ in range(40):
+        if s_good - s_bad <= max(0.005 * s_good, 0.01):
+            break
+        mid = 0.5 * (s_bad + s_good)
+        cas_mid, complete = apertures(mid)
+        if complete and max(shortfall(cas_mid)) <= 1e-7:
+            s_good, cas = mid, cas_mid
+        else:
+            s_bad = mid
+    return s_good, cas
 
 
 def _reached(traced: Sequence[tuple[RayGroup, tuple]], section: int, face: int) -> bool:
@@ -517,13 +566,17 @@ def _face_length(v: np.ndarray, i: int) -> float:
 
 def finish_system(spec: Spec, drafts: Sequence[Draft], *, facts: Sequence[tuple[str, float, str]] = (),
                   tuning: Sequence[tuple[float, ...]] = (), warnings: Sequence[str] = (),
-                  path: str = "design"):  # -> System (imported lazily to keep this module light)
+                  path: str = "design", pivot_z_mm: float | None = None
+                  ):  # -> System (imported lazily to keep this module light)
     """Trace every condition through the final sections and assemble the ``System``.
 
     Fills ``System.clear_apertures`` (from the traced footprints x margin, over band, tuning
     and alignment) and ``System.aoi_ranges_deg`` (chief ray, nominal alignment, over band and
     tuning), chooses coatings per face, states the per-wavelength chief-ray transmission as
     facts, and adds warnings for a TIR margin under 2 deg and an antireflection face above 60 deg.
+
+    ``pivot_z_mm`` is passed to ``beam_groups`` (the plane the divergence and the alignment
+    tilt lean about; None = the start plane); ``System.materials_file`` is the spec's.
 
     Raises:
         DesignCheckError: a chief ray does not pass, or a clear aperture leaves its face.
@@ -535,7 +588,8 @@ def finish_system(spec: Spec, drafts: Sequence[Draft], *, facts: Sequence[tuple[
     states = max(len(d.rotations_rad) for d in drafts)
     z0 = start_z_mm(drafts)
     placed = [d.placed() for d in drafts]
-    traced = trace_groups(placed, beam_groups(spec, start_z_mm=z0, states=states))
+    traced = trace_groups(placed, beam_groups(spec, start_z_mm=z0, states=states,
+                                              pivot_z_mm=pivot_z_mm))
     for g, paths in traced:
         if not paths[0].complete:
             raise DesignCheckError(path, f"the chief ray at {g.wavelength_nm:g} nm ({g.case}, "
@@ -608,7 +662,7 @@ def finish_system(spec: Spec, drafts: Sequence[Draft], *, facts: Sequence[tuple[
     return System(family=spec.family.value, prisms=tuple(prisms), beam=beam,
                   facts=tuple(out_facts), tuning=tuple(tuple(r) for r in tuning),
                   warnings=tuple(dict.fromkeys(warn)), clear_apertures=tuple(cas),
-                  aoi_ranges_deg=tuple(aois))
+                  aoi_ranges_deg=tuple(aois), materials_file=spec.materials_file)
 
 
 def _transmission(spec: Spec, drafts: Sequence[Draft], chief, prisms) -> float:

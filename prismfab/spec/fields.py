@@ -236,6 +236,8 @@ _ANAMORPHIC_SINGLE = Section(
         Field("entry_aoi_deg", Number(minimum=0.0, exclusive_maximum=90.0),
               "fixed entry angle of incidence in degrees (null: solve for normal exit)",
               nullable=True),
+        Field("exit_tilt_deg", Number(minimum=0.0, maximum=10.0),
+              "anti-feedback tilt of the normal face, degrees (M re-balanced after the tilt)"),
     ),
     model=t.AnamorphicSingleDesign,
 )
@@ -392,6 +394,38 @@ _SHEET = Section(
     doc="drawing-sheet choices",
 )
 
+_HEX16 = Text(r"[0-9a-f]{16}", "16 lower-case hexadecimal digits", nonempty=True)
+_LOCKED_PRISM = Section(
+    (
+        Field("name", Text(nonempty=True), "prism name", required=True, example="P1"),
+        Field("material", _MATERIAL, "catalogue key of the material", required=True),
+        Field("height_mm", Number(exclusive_minimum=0.0, maximum=2000.0), "prism height, mm",
+              required=True),
+        Field("vertices_mm", ListOf(_XY, 3, 16), "section vertices in the part frame, mm",
+              required=True),
+        Field("rotation", ListOf(ListOf(Number(minimum=-1.0, maximum=1.0), 3, 3), 3, 3),
+              "pose rotation matrix, row by row", required=True),
+        Field("translation_mm", ListOf(Number(minimum=-1e5, maximum=1e5), 3, 3),
+              "pose translation in the system frame, mm", required=True),
+    ),
+    doc="one solved prism",
+)
+_LOCK = Section(
+    (
+        Field("prismfab_version", Text(nonempty=True, max_length=40),
+              "prismfab version that wrote the lock", required=True, example="\"0.1.0\""),
+        Field("family", Choice(tuple(f.value for f in t.Family)),
+              "design family the lock was solved for", required=True),
+        Field("inputs", Section(tuple(Field(k, _HEX16, f"digest of the {k} inputs",
+                                            required=True)
+                                      for k in ("beam", "design", "fabrication", "materials"))),
+              "digests of the inputs the geometry depends on", required=True),
+        Field("prisms", ListOf(_LOCKED_PRISM, 1, 8), "the solved prisms, in beam order",
+              required=True),
+    ),
+    doc="solved geometry written by 'prismfab solve --write-lock'",
+)
+
 SPEC = Section(
     (
         Field("format", Number(minimum=1, maximum=1, integer=True), "spec format version (1)",
@@ -407,6 +441,7 @@ SPEC = Section(
         Field("sheet", _SHEET, _SHEET.doc),
         Field("materials_file", Text(nonempty=True),
               "extra material catalogue (YAML), relative to the spec file"),
+        Field("lock", _LOCK, _LOCK.doc),
     ),
     doc="prismfab design spec",
 )

@@ -28,6 +28,8 @@ __all__ = [
     "FoldType",
     "Grade",
     "ImperfectionNotation",
+    "Lock",
+    "LockedPrism",
     "OutputMode",
     "Project",
     "Requirements",
@@ -125,12 +127,15 @@ class AnamorphicSingleDesign:
     ``output`` DEVIATED: plain two-face prism; PARALLEL: an internal reflection makes the output
     parallel to the input; COLLINEAR: also on the input axis (entry height solved).
     ``entry_aoi_deg`` None = solve (normal exit); a value fixes the entry incidence.
+    ``exit_tilt_deg``: anti-feedback tilt of the (near-)normal face, degrees (0 = exactly normal);
+    the magnification is re-balanced after the tilt.
     """
 
     magnification: float
     material: str
     output: OutputMode = OutputMode.DEVIATED
     entry_aoi_deg: float | None = None
+    exit_tilt_deg: float = 1.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -277,6 +282,46 @@ class SheetSpec:
 
 
 @dataclass(frozen=True, slots=True)
+class LockedPrism:
+    """One solved prism as recorded by ``prismfab solve --write-lock``.
+
+    Args:
+        name: prism name ("P1").
+        material: catalogue key.
+        height_mm: prism height.
+        vertices_mm: section polygon in the part frame (CCW, vertex 0 at the origin).
+        rotation: pose rotation matrix, row by row (part frame -> system frame).
+        translation_mm: pose translation, system frame.
+    """
+
+    name: str
+    material: str
+    height_mm: float
+    vertices_mm: tuple[tuple[float, float], ...]
+    rotation: tuple[tuple[float, float, float], ...]
+    translation_mm: tuple[float, float, float]
+
+
+@dataclass(frozen=True, slots=True)
+class Lock:
+    """Solved geometry pinned in the spec, so a later solve gives exactly the same prisms.
+
+    Args:
+        prismfab_version: version that wrote the lock.
+        family: design family the lock was solved for.
+        inputs: (section, digest) pairs: a short hash of each input the geometry depends on
+            ("beam", "design", "fabrication", "materials"); the solver refuses a lock whose
+            inputs changed since it was written.
+        prisms: the prisms in beam order.
+    """
+
+    prismfab_version: str
+    family: str
+    inputs: tuple[tuple[str, str], ...]
+    prisms: tuple[LockedPrism, ...]
+
+
+@dataclass(frozen=True, slots=True)
 class Spec:
     """A validated design spec.
 
@@ -286,6 +331,7 @@ class Spec:
         materials_file: an extra user catalogue (absolute path), or "".
         source: file the spec came from ("" for in-memory specs).
         lines: (dotted path, line, column) for every field that came from YAML.
+        lock: solved geometry pinned by ``prismfab solve --write-lock``, or None.
     """
 
     project: Project
@@ -299,6 +345,7 @@ class Spec:
     materials_file: str = ""
     source: str = ""
     lines: tuple[tuple[str, int, int], ...] = ()
+    lock: Lock | None = None
 
     def line_of(self, path: str) -> int | None:
         """1-based YAML line of a field (or of its nearest parent that has one)."""

@@ -88,7 +88,29 @@ def build_spec(data: Data, *, lines: tuple[tuple[str, int, int], ...], source: s
         materials_file=materials_file,
         source=source,
         lines=lines,
+        lock=_lock(data.get("lock"), family, design, where),
     )
+
+
+def _lock(d: Data | None, family: t.Family, design: t.Design, where: _Where) -> t.Lock | None:
+    """The ``lock`` section (written by ``prismfab solve --write-lock``), checked against the
+    family and prism count; the solver checks it against the inputs and the solved geometry."""
+    if d is None:
+        return None
+    if d["family"] != family.value:
+        raise where.error("lock.family", f"('{d['family']}') does not match design.family "
+                          f"('{family.value}')", "delete the lock section and write it again "
+                          "with 'prismfab solve --write-lock'")
+    count = prism_count(family, design)
+    if family in (t.Family.ANAMORPHIC_SINGLE, t.Family.ANAMORPHIC_PAIR, t.Family.BREWSTER,
+                  t.Family.DISPERSING) and len(d["prisms"]) != count:
+        raise where.error("lock.prisms", f"holds {len(d['prisms'])} prisms but the design makes "
+                          f"{count}", "delete the lock section and write it again")
+    prisms = tuple(t.LockedPrism(**{**p, "vertices_mm": tuple(tuple(v) for v in p["vertices_mm"]),
+                                    "rotation": tuple(tuple(r) for r in p["rotation"])})
+                   for p in d["prisms"])
+    return t.Lock(prismfab_version=d["prismfab_version"], family=d["family"],
+                  inputs=tuple(sorted(d["inputs"].items())), prisms=prisms)
 
 
 def prism_count(family: t.Family, design: t.Design) -> int:
