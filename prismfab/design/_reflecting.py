@@ -279,7 +279,8 @@ def _face_deficits(spec: Spec, placed: Sequence[Placed], traced: list, *, ground
             if not role.is_optical:
                 continue
             fps = footprints(traced, k, i, lambda h: h.along_mm)
-            if not fps:
+            if not fps:  # the beam misses a face it must use (e.g. walks off a second prism)
+                grow = max(grow, 0.1)
                 continue
             lo, hi = clear_aperture(fps, fab.clear_aperture_margin)
             b = border_mm(hi - lo, fab.grade)
@@ -295,7 +296,8 @@ def _sequence(path: PlanePath) -> tuple[tuple[int, int, str], ...]:
 
 
 def fit_scale(spec: Spec, make: Callable[[float], Sequence[Draft]], start_mm: float, *,
-              path: str, ground_min: bool = True) -> tuple[float, tuple[Draft, ...]]:
+              path: str, ground_min: bool = True, reach: str = ""
+              ) -> tuple[float, tuple[Draft, ...]]:
     """Smallest defining length (a multiple of 0.1 mm) whose sections hold the beam.
 
     Args:
@@ -304,6 +306,7 @@ def fit_scale(spec: Spec, make: Callable[[float], Sequence[Draft]], start_mm: fl
         start_mm: a first guess of the defining length, mm.
         path: spec field named when the faces would exceed ``max_face_mm``.
         ground_min: hold ground faces to ``min_face_mm`` too (False: optical faces only).
+        reach: what would fix a face over the limit, in words (default: the generic advice).
 
     Raises:
         DesignCheckError: a face would exceed ``fabrication.max_face_mm``.
@@ -323,13 +326,16 @@ def fit_scale(spec: Spec, make: Callable[[float], Sequence[Draft]], start_mm: fl
             return s, drafts
         factor = max(1.0 + grow, fab.min_face_mm / shortest if shortest > 0 else 2.0)
         s = round_up(max(s * factor, s + 0.1))
-        if longest * factor > 20.0 * fab.max_face_mm:
+        if longest * factor > 20.0 * fab.max_face_mm or longest > 2.0 * fab.max_face_mm:
             break
+    need = (f"a face of about {longest:.1f} mm" if longest <= 2.0 * fab.max_face_mm else
+            f"faces well over twice that limit (they still had not caught the beam at "
+            f"{2.0 * fab.max_face_mm:g} mm)")
     raise DesignCheckError(
         "fabrication.max_face_mm",
-        f"holding the beam on its faces needs a face of about {longest:.1f} mm, above the limit "
-        f"of {fab.max_face_mm:g} mm ({path})",
-        reachable="raise fabrication.max_face_mm, or use a smaller beam or clear-aperture margin")
+        f"holding the beam on its faces needs {need}, above the limit of {fab.max_face_mm:g} mm "
+        f"({path})", reachable=reach or "raise fabrication.max_face_mm, or use a smaller beam "
+        "or clear-aperture margin")
 
 
 def _longest(vertices: np.ndarray) -> float:

@@ -225,6 +225,12 @@ def _spill(draft: Draft, lab: tuple[str, ...], group, chief, edge) -> None:
     """Raise the error for an edge ray that leaves the chief ray's faces, with the numbers."""
     seq = [(h.face, h.event) for h in edge.hits]
     ref = [(h.face, h.event) for h in chief.hits]
+    if not ref:
+        raise DesignCheckError(
+            "design.position_mm", f"at {group.wavelength_nm:g} nm ({group.case}) the chief ray "
+            "misses the prism while part of the 1/e^2 beam meets it",
+            reachable="move the datum vertex (position_mm) so the beam and its alignment "
+            "allowance fall well inside the entry face")
     k = next((j for j, (a, b) in enumerate(zip(seq, ref)) if a != b), min(len(seq), len(ref)))
     k = min(k, len(ref) - 1)
     face = ref[k][0]

@@ -9,12 +9,14 @@ band, the in-plane divergence, the alignment tilt and the grade's angle toleranc
 and a lost TIR is an error).
 
 * **right-angle**: 45-90-45 section; the beam enters a leg at normal incidence, reflects once at
-  the hypotenuse (internal incidence 45 deg, so TIR needs n > sqrt 2, optics.md section 1) and
+  the hypotenuse (internal incidence 45 deg, so TIR needs n > sqrt 2) and
   leaves through the other leg: 90 deg deviation, towards -x.
 * **penta**: entry and exit faces at 90 deg, two reflecting faces 45 deg apart (interior angles
   90, 4 x 112.5 deg): the deviation is twice the angle between the reflectors, 90 deg, whatever
-  the input tilt. Internal incidence 22.5 deg, so both reflectors need a mirror coating unless
-  n > 1/sin 22.5 deg = 2.613.
+  the input tilt. Internal incidence 22.5 deg, so both reflectors get a mirror coating (without
+  a warning: that is the usual penta) unless n > 1/sin 22.5 deg = 2.613. The prism is set
+  ``ANTI_FEEDBACK_TILT_DEG`` off square to the beam so the entry and exit faces do not return
+  their reflections into the source; the 90 deg deviation does not change.
 * **dove**: isosceles trapezoid with 45 deg base angles; the beam, parallel to the base, refracts
   at the inclined entry face, reflects at the base (TIR) and leaves the other inclined face
   parallel to the input. The base length ``L = 2 K y`` (``K = 1/tan a + 1/tan g``, ``g`` the
@@ -23,7 +25,13 @@ and a lost TIR is an error).
   are sized for the larger beam diameter in both axes (any roll).
 * **retro**: right-angle section entered through the hypotenuse at normal incidence (role
   ENTRY_EXIT), two internal reflections at the legs (45 deg each), return beam antiparallel,
-  displaced by half the hypotenuse.
+  displaced by about half the hypotenuse. Like the penta it is set ``ANTI_FEEDBACK_TILT_DEG``
+  off square (an in-plane 180 deg return does not depend on the tilt), so the hypotenuse's
+  first-surface reflection misses the source.
+* **right-angle** and **dove** keep their textbook orientation: tilting a right-angle prism
+  turns its fold by twice the tilt, so its normal-incidence legs are reported by the trace's
+  back-reflection check instead (tilt the prism and accept 90 deg + 2 x tilt, or add an
+  isolator).
 """
 
 from __future__ import annotations
@@ -46,6 +54,10 @@ __all__ = ["DOVE_BASE_ANGLE_DEG", "design"]
 
 DOVE_BASE_ANGLE_DEG = 45.0
 """Base angle of the dove prism's inclined faces (the usual choice, common practice)."""
+ANTI_FEEDBACK_TILT_DEG = {FoldType.PENTA: 1.0, FoldType.RETRO: 1.0}
+"""Tilt of the constant-deviation types about the chief ray's entry point, so the reflections
+of the entry face (and the retro's exit face) miss the source by twice that; their in-plane
+deviation does not depend on the tilt (common practice)."""
 _PENTA_HALF_RAD = math.radians(22.5)
 
 
@@ -122,21 +134,22 @@ _SHAPES: dict[FoldType, Callable[[float, float], _Layout]] = {
 }
 
 
-def _to_plane(layout: _Layout) -> np.ndarray:
+def _to_plane(layout: _Layout, tilt_rad: float = 0.0) -> np.ndarray:
     """Section vertices in plane coordinates with the entry point at the origin and the entry
-    direction along +z."""
-    ang = math.atan2(layout.direction[1], layout.direction[0])
+    direction along +z, then the prism turned by ``tilt_rad`` about the entry point."""
+    ang = math.atan2(layout.direction[1], layout.direction[0]) - tilt_rad
     c, s = math.cos(-ang), math.sin(-ang)
     rot = np.array([[c, -s], [s, c]])
     return (layout.vertices - layout.entry) @ rot.T
 
 
 def _maker(shape: Callable[[float, float], _Layout], n0: float, index: Callable[[float], float],
-           material: str, roles: dict[int, FaceRole]) -> Callable[[float], tuple[Draft, ...]]:
+           material: str, roles: dict[int, FaceRole], tilt_rad: float = 0.0
+           ) -> Callable[[float], tuple[Draft, ...]]:
     def make(scale_mm: float) -> tuple[Draft, ...]:
         lay = shape(scale_mm, n0)
         rr = tuple(roles.get(i, r) for i, r in enumerate(lay.roles))
-        return (Draft("P1", material, index, _to_plane(lay), rr, lay.notes),)
+        return (Draft("P1", material, index, _to_plane(lay, tilt_rad), rr, lay.notes),)
     return make
 
 
@@ -172,13 +185,17 @@ def design(spec: Spec) -> System:
     # Size with every reflector traced as a mirror (a TIR face turns the beam the same way),
     # then give each its role: the geometry does not depend on the choice.
     mirrors = {i: FaceRole.MIRROR for i, r in enumerate(shape(1.0, n0).roles) if r.reflects}
-    scale, drafts = rf.fit_scale(sized_spec, _maker(shape, n0, index, mat.key, mirrors), guess,
-                                 path="design")
+    tilt = math.radians(ANTI_FEEDBACK_TILT_DEG.get(d.type, 0.0))
+    scale, drafts = rf.fit_scale(sized_spec, _maker(shape, n0, index, mat.key, mirrors, tilt),
+                                 guess, path="design")
     budget = rf.reflections(spec, [p.placed() for p in drafts])
     roles, warnings = _reflector_roles(spec, d, budget, drafts[0])
-    drafts = _maker(shape, n0, index, mat.key, roles)(scale)
+    drafts = _maker(shape, n0, index, mat.key, roles, tilt)(scale)
     placed = [p.placed() for p in drafts]
     facts = _facts(spec, d.type, placed, budget, drafts[0])
+    if tilt:
+        facts.append(("anti-feedback tilt of the prism (deviation unchanged)",
+                      ANTI_FEEDBACK_TILT_DEG[d.type], "deg"))
     system = finish_system(sized_spec, drafts, facts=facts, warnings=warnings, path="design")
     system = rf.without_generic_tir_warnings(system, budget)
     if sized_spec is not spec:
@@ -217,12 +234,16 @@ def _reflector_roles(spec: Spec, d: FoldDesign, budget: tuple[rf.Reflection, ...
                 f"worst-case margin {r.worst_margin_deg:.3f} deg with band, divergence, "
                 f"alignment and a {tol:.0f} arcsec angle tolerance)")
         aoi_eff = math.radians(r.aoi_deg - (r.nominal_margin_deg - r.worst_margin_deg))
+        if d.coat_reflecting_faces is None and d.type is FoldType.PENTA:
+            roles[r.face] = FaceRole.MIRROR  # the usual penta: both reflectors coated, no news
+            continue
         if d.coat_reflecting_faces is False:
+            need = (f"TIR there needs n above about {1.0 / math.sin(aoi_eff):.4f}"
+                    if math.sin(aoi_eff) > 1e-3 else "no index keeps TIR over that input spread")
             raise DesignCheckError(
                 "design.coat_reflecting_faces", lost,
-                reachable=f"TIR there needs n above about {1.0 / math.sin(aoi_eff):.4f}; set "
-                "coat_reflecting_faces to true (or leave it empty) for a mirror coating, or "
-                "choose a material of higher index")
+                reachable=need + "; set coat_reflecting_faces to true (or leave it empty) for a "
+                "mirror coating, or choose a material of higher index")
         roles[r.face] = FaceRole.MIRROR
         warnings.append(lost + "; the face gets a mirror coating")
     return roles, warnings

@@ -2,7 +2,7 @@
 
 The exact deviation of a wedge of angle A and index n at incidence phi1 is
 ``delta = phi1 + phi2 - A`` with ``phi2 = asin(sin A sqrt(n^2 - sin^2 phi1) - cos A sin phi1)``
-(shared/reference/optics.md section 3); it rises monotonically with A (``d delta / dA =
+(exact refraction at both faces, Snell's law); it rises monotonically with A (``d delta / dA =
 n cos psi2 / cos phi2 - 1 >= 0``) from 0 at A = 0 to its grazing-exit limit, so the solver brackets
 the root and finds A to machine precision. For small A it tends to the thin-prism value
 ``(n - 1) A``.
@@ -18,16 +18,22 @@ Conventions (system frame, beam plane):
     is the smallest multiple of 0.1 mm that leaves a thin edge of at least
     ``fabrication.min_face_mm`` and keeps the wedge no thinner than a tenth of its face
     (rigidity for polishing, common practice).
-  * ``design.pair``: two identical wedges in the same orientation (a Risley pair). The
-    deviation target is that of one wedge at the design incidence (the part the shop makes);
-    the System lays the pair out aligned, where it deviates by about twice that. Counter-
-    rotating the wedges by +/-r about the input axis steers the beam along one line, from the
-    aligned value at r = 0 down to a small residual at r = 90 deg; rotating both together
-    sweeps the cone. These figures come from an exact 3D trace of the chief ray and are facts.
+  * ``design.pair``: two identical wedges in the same orientation (a Risley pair) turning about
+    the input axis. ``deviation_deg`` is then the pair's maximum deviation, reached with the
+    wedges aligned; each wedge is solved so the exact trace of the aligned pair gives it.
+    Counter-rotating the wedges (relative rotation rho, each turned by rho/2 in opposite
+    senses) steers the beam along one line, from that maximum at rho = 0 down to a small
+    residual at rho = 180 deg (thin-prism limit ``2 delta1 cos(rho/2)``); turning both together
+    sweeps a cone of the same half-angle. The steering range comes from an exact 3D trace of
+    the chief ray and is reported as facts and as ``System.tuning`` rows (relative rotation
+    deg, deviation deg). Both wedges are centred on the rotation axis; their faces are sized
+    for the beam's walk on the second wedge at any rotation and cut square (as high as wide),
+    since the beam turns relative to each wedge.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable
 
@@ -47,6 +53,9 @@ MAX_EXIT_DEG = 89.0
 """Largest exit angle accepted for any ray of the band and input spread (just short of grazing)."""
 MIN_THICKNESS_RATIO = 0.1
 """Centre thickness at least this fraction of the face length (common practice, about 10:1)."""
+BACK_REFLECTION_MRAD = 2.0
+"""A reflection within this angle of the reversed input beam returns into the source (the
+trace's back-reflection limit)."""
 ROTATION_CLEARANCE_MM = 1.0
 """Free gap left between the wedges of a pair when they turn (common practice)."""
 _ROLES = (FaceRole.GROUND, FaceRole.EXIT, FaceRole.GROUND, FaceRole.ENTRY)
@@ -173,22 +182,29 @@ def _maker(spec: Spec, apex_rad: float, index: Callable[[float], float], materia
         local = _rotate(_local_section(apex_rad, face_mm, t), rho)
         drafts = [Draft("W1", material, index, local, _ROLES, _NOTES)]
         if count == 2:
-            path = rf.chief_path([drafts[0].placed()], spec.beam.wavelength_nm)
-            exit_point, u = path.points[-2], path.direction
-            gap = _pair_gap_mm(spec, apex_rad=apex_rad, face_mm=face_mm)
-            drafts.append(Draft("W2", material, index, local + exit_point + gap * u, _ROLES,
+            # wedge 2 sits on the rotation axis (the input axis), behind wedge 1's exit face
+            z2 = _exit_on_axis_mm(apex_rad, rho, t) + _pair_gap_mm(
+                spec, apex_rad=apex_rad, rho_rad=rho, face_mm=face_mm)
+            drafts.append(Draft("W2", material, index, local + np.array([z2, 0.0]), _ROLES,
                                 _NOTES))
         return tuple(drafts)
     return make
 
 
-def _pair_gap_mm(spec: Spec, *, apex_rad: float, face_mm: float) -> float:
-    """Gap along the chief ray from wedge 1's exit face to wedge 2's entry face, so the tilted
-    faces clear each other at any roll (the corner radius is half the face diagonal)."""
+def _exit_on_axis_mm(apex_rad: float, rho_rad: float, centre_mm: float) -> float:
+    """z where wedge 1's exit face crosses the input axis (entry-face centre at the origin)."""
+    px, py = centre_mm * math.cos(rho_rad), centre_mm * math.sin(rho_rad)
+    return px + py * math.tan(apex_rad + rho_rad)
+
+
+def _pair_gap_mm(spec: Spec, *, apex_rad: float, rho_rad: float, face_mm: float) -> float:
+    """Gap on the axis from wedge 1's exit face to wedge 2's entry face, so the tilted faces
+    clear each other at any rotation of either wedge: each face plane leans by its tilt from
+    the axis normal, over the corner radius of a square wedge (half its diagonal)."""
     _ca, height = height_mm(spec, path_mm=face_mm)
-    radius = 0.5 * math.hypot(face_mm, height)
-    tilt = math.radians(abs(spec.design.incidence_deg))  # type: ignore[union-attr]
-    return round_up(radius * (math.tan(apex_rad) + 2.0 * math.tan(tilt)) + ROTATION_CLEARANCE_MM)
+    radius = 0.5 * math.hypot(face_mm, max(face_mm, height))
+    lean = math.tan(abs(apex_rad + rho_rad)) + math.tan(abs(rho_rad))
+    return round_up(radius * lean + ROTATION_CLEARANCE_MM)
 
 
 def design(spec: Spec) -> System:
@@ -209,21 +225,98 @@ def design(spec: Spec) -> System:
         raise SolveError("design.incidence_deg", f"an incidence of {d.incidence_deg:g} deg grazes "
                          "the entry face", reachable=f"|incidence| below {MAX_EXIT_DEG:g} deg")
     apex = solve_apex_rad(deviation_rad=math.radians(d.deviation_deg), n=index(wl0),
-                          incidence_rad=inc, count=1, transmit_count=count,
+                          incidence_rad=inc, count=count,
                           band_indices=tuple(index(w) for w in spec.beam.band_nm),
-                          spread_rad=rf.input_spread_rad(spec))
-    guess = spec.fabrication.clear_aperture_margin * spec.beam.diameter_in_plane_mm
-    face, drafts = rf.fit_scale(spec, _maker(spec, apex, index, mat.key, count), guess,
-                                path="design", ground_min=d.thickness_mm is None)
+                          spread_rad=rf.input_spread_rad(spec),
+                          path="design.deviation_deg")
+    sized = _sizing_spec(spec)
+    guess = sized.fabrication.clear_aperture_margin * sized.beam.diameter_in_plane_mm
+    reach = ("raise fabrication.max_face_mm, or use a smaller beam or clear-aperture margin"
+             + ("; in a rotating pair the tilted faces need a gap that grows with them and the "
+                "beam walks across the second wedge by gap x tan(deviation of the first), so a "
+                "smaller design.incidence_deg or deviation_deg also helps" if count == 2 else ""))
+    face, drafts = rf.fit_scale(sized, _maker(sized, apex, index, mat.key, count), guess,
+                                path="design", ground_min=d.thickness_mm is None, reach=reach)
     _check_thickness(spec, apex_rad=apex, face_mm=face)
     placed = [p.placed() for p in drafts]
     facts = _facts(spec, apex, face, placed, index)
-    warnings = []
-    if abs(d.incidence_deg) < 0.5:
-        warnings.append("W1 face D: the entry face is at normal incidence, so its reflection "
-                        "returns into the source (optics.md section 8); tilt the wedge by 0.5-2 "
-                        "deg (design.incidence_deg) or use an isolator")
-    return finish_system(spec, drafts, facts=facts, warnings=warnings, path="design")
+    tuning: list[tuple[float, ...]] = []
+    if count == 2:
+        rows = steering_rows(apex, index(wl0), inc)
+        lost = [rho for rho, dev in rows if not math.isfinite(dev)]
+        if lost:
+            raise DesignCheckError(
+                "design.incidence_deg", f"with the wedges turned {lost[0]:g} deg against each "
+                f"other the beam cannot leave W2 (total internal reflection at "
+                f"{d.incidence_deg:g} deg incidence)",
+                reachable="a smaller incidence or deviation, so the pair steers over its "
+                "whole range")
+        tuning = [(rho, round(dev, 9)) for rho, dev in rows]
+        facts += _steering_facts(rows)
+    system = finish_system(sized, drafts, facts=facts, tuning=tuning,
+                           warnings=_warnings(spec), path="design")
+    if count == 2:
+        system = dataclasses.replace(_square_for_rotation(spec, system),
+                                     tuning_columns=TUNING_COLUMNS)
+    return dataclasses.replace(system, beam=dataclasses.replace(
+        system.beam, diameter_in_plane_mm=spec.beam.diameter_in_plane_mm,
+        diameter_out_of_plane_mm=spec.beam.diameter_out_of_plane_mm,
+        divergence_in_plane_mrad=spec.beam.divergence_in_plane_mrad,
+        divergence_out_of_plane_mrad=spec.beam.divergence_out_of_plane_mrad))
+
+
+def _warnings(spec: Spec) -> list[str]:
+    """A near-normal entry face whose reflection lands close to (not on) the source.
+
+    Exactly normal faces (reflection within 2 mrad of the source) are reported by the
+    back-reflection check of the trace; this adds the case a designer would still tilt away.
+    """
+    inc = abs(spec.design.incidence_deg)  # type: ignore[union-attr]
+    if not 0.5 * BACK_REFLECTION_MRAD * 1e-3 < math.radians(inc) < math.radians(0.5):
+        return []
+    return [f"W1 face D: the entry face is {inc:.3g} deg from normal incidence, so its "
+            f"reflection returns {2.0 * inc:.3g} deg from the source; tilt the wedge by 0.5-2 deg "
+            "(design.incidence_deg) or use an isolator, and treat the return as a stray beam "
+            "(IEC 60825-1 / ANSI Z136.1)"]
+
+
+def _sizing_spec(spec: Spec) -> Spec:
+    """The spec the faces are sized for: a rotating pair sees the beam at any roll (round)."""
+    if not spec.design.pair:  # type: ignore[union-attr]
+        return spec
+    b = spec.beam
+    dia = max(b.diameter_in_plane_mm, b.diameter_out_of_plane_mm)
+    div = max(b.divergence_in_plane_mrad, b.divergence_out_of_plane_mrad)
+    beam = dataclasses.replace(b, diameter_in_plane_mm=dia, diameter_out_of_plane_mm=dia,
+                               divergence_in_plane_mrad=div, divergence_out_of_plane_mrad=div)
+    return dataclasses.replace(spec, beam=beam)
+
+
+def _square_for_rotation(spec: Spec, system: System) -> System:
+    """Centre every clear aperture on its face (the beam's walk turns with the wedges) and cut
+    the wedges as high as their widest optical face, so the clear aperture holds at any roll."""
+    cas, height = [], 0.0
+    lengths = {(p.name, f.label): p.face_length_mm(i) for p in system.prisms
+               for i, f in enumerate(p.faces)}
+    for name, label, w, h, c, _ch in system.clear_apertures:
+        length = lengths[(name, label)]
+        half = max(abs(c - 0.5 * w - 0.5 * length), abs(c + 0.5 * w - 0.5 * length))
+        side = max(2.0 * half, h)
+        if side > length + 1e-6:
+            raise DesignCheckError(
+                "design.pair", f"{name} face {label}: the beam's walk on the rotating wedges "
+                f"needs a clear aperture of {side:.2f} mm on a {length:.2f} mm face",
+                reachable="a smaller beam or deviation, or a single wedge")
+        cas.append((name, label, round(side, 4), round(side, 4), round(0.5 * length, 4)))
+        height = max(height, length)
+    height = max(round_up(height), max(p.height_mm for p in system.prisms))
+    prisms = []
+    for p in system.prisms:
+        tx, _ty, tz = p.pose.translation_mm
+        pose = dataclasses.replace(p.pose, translation_mm=(tx, -0.5 * height, tz))
+        prisms.append(dataclasses.replace(p, height_mm=height, pose=pose))
+    full = tuple((*ca, round(0.5 * height, 4)) for ca in cas)
+    return dataclasses.replace(system, prisms=tuple(prisms), clear_apertures=full)
 
 
 def _check_thickness(spec: Spec, *, apex_rad: float, face_mm: float) -> None:
@@ -265,8 +358,6 @@ def _facts(spec: Spec, apex: float, face: float, placed: list,
     for wl in dict.fromkeys(spec.beam.band_nm):
         p = rf.chief_path(placed, wl)
         facts.append((f"deviation at {wl:g} nm", round(rf.deviation_deg(p), 9), "deg"))
-    if count == 2:
-        facts += _risley_facts(apex, n0, math.radians(d.incidence_deg))
     return facts
 
 
@@ -289,7 +380,7 @@ def _roll(v: np.ndarray, angle_rad: float) -> np.ndarray:
 def risley_direction(apex_rad: float, n: float, incidence_rad: float, roll1_rad: float,
                      roll2_rad: float) -> np.ndarray:
     """Output chief-ray direction of the pair with each wedge rolled about the system z axis
-    (exact vector Snell's law, optics.md section 1)."""
+    (exact vector Snell's law)."""
     d = np.array([0.0, 0.0, 1.0])
     entry, exit_ = _normals_3d(apex_rad, incidence_rad)
     for roll in (roll1_rad, roll2_rad):
@@ -301,18 +392,44 @@ def risley_direction(apex_rad: float, n: float, incidence_rad: float, roll1_rad:
     return d
 
 
-def _risley_facts(apex: float, n: float, inc: float) -> list[tuple[str, float, str]]:
-    facts = []
-    for r_deg in (0.0, 30.0, 60.0, 90.0):
-        r = math.radians(r_deg)
-        d = risley_direction(apex, n, inc, r, -r)
-        dev = math.degrees(math.acos(max(-1.0, min(1.0, float(d[2])))))
-        facts.append((f"pair deviation, wedges counter-rotated by +/-{r_deg:g} deg", round(dev, 6),
-                      "deg"))
-    cone = [math.degrees(math.acos(float(risley_direction(apex, n, inc, r, r)[2])))
-            for r in np.radians([0.0, 90.0, 180.0, 270.0])]
-    facts.append(("pair deviation, both wedges turned together (min over a turn)",
-                  round(min(cone), 6), "deg"))
-    facts.append(("pair deviation, both wedges turned together (max over a turn)",
-                  round(max(cone), 6), "deg"))
+TUNING_COLUMNS = ("relative rotation of the wedges (deg)", "pair deviation (deg)")
+"""What the columns of a pair's ``System.tuning`` rows hold."""
+STEERING_STEP_DEG = 15.0
+"""Step of relative rotation between the tabulated steering rows, deg."""
+
+
+def pair_deviation_deg(apex_rad: float, n: float, incidence_rad: float, roll1_rad: float,
+                       roll2_rad: float) -> float:
+    """Deviation of the pair's output chief ray from the input axis, deg (exact 3D trace)."""
+    d = risley_direction(apex_rad, n, incidence_rad, roll1_rad, roll2_rad)
+    return math.degrees(math.atan2(math.hypot(float(d[0]), float(d[1])), float(d[2])))
+
+
+def steering_rows(apex_rad: float, n: float, incidence_rad: float
+                  ) -> list[tuple[float, float]]:
+    """(relative rotation deg, pair deviation deg) from aligned (0) to opposed (180 deg), each
+    wedge turned by half the relative rotation in opposite senses (exact 3D trace)."""
+    rows = []
+    steps = int(round(180.0 / STEERING_STEP_DEG))
+    for k in range(steps + 1):
+        rho = k * STEERING_STEP_DEG
+        half = math.radians(0.5 * rho)
+        rows.append((rho, pair_deviation_deg(apex_rad, n, incidence_rad, half, -half)))
+    return rows
+
+
+def _steering_facts(rows: list[tuple[float, float]]) -> list[tuple[str, float, str]]:
+    """The steering range of the pair: its ends and where it reaches half the maximum."""
+    top, bottom = rows[0][1], rows[-1][1]
+    facts = [("steering range: maximum deviation (wedges aligned)", round(top, 9), "deg"),
+             ("steering range: minimum deviation (wedges opposed, 180 deg apart)",
+              round(bottom, 9), "deg"),
+             ("steering range: cone half-angle swept by turning both wedges together",
+              round(top, 9), "deg")]
+    for (r0, d0), (r1, d1) in zip(rows, rows[1:]):
+        if d0 >= 0.5 * top > d1:
+            rho = r0 + (r1 - r0) * (d0 - 0.5 * top) / (d0 - d1)
+            facts.append(("steering range: relative rotation for half the maximum deviation",
+                          round(rho, 3), "deg"))
+            break
     return facts

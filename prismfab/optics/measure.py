@@ -1,7 +1,8 @@
 """What a solved system does to its beam, per wavelength: the ``Performance`` of a ``System``.
 
 For each wavelength (design first) one exact trace carries: the chief ray; two differential rays
-displaced by ``DIFF_MM`` along the in-plane and out-of-plane beam axes (plane faces map parallel
+displaced by ``DIFF_MM`` (1 % of the beam for beams under 1 mm) along the in-plane and
+out-of-plane beam axes (plane faces map parallel
 rays linearly, so these give magnification and footprints exactly); the four 1/e^2 envelope rays
 (a cross-check of the magnification and a clipping check); and two chief rays at
 ``lambda +/- DLAMBDA_NM`` for the angular dispersion. Angles of the output are taken in the beam
@@ -39,11 +40,20 @@ CROSS_CHECK_REL = 1e-6
 _RAYS = 9  # per wavelength: chief, +dx, +dy, +x, -x, +y, -y envelope, chief at lambda -/+
 
 
+def _diff_mm(system: System) -> float:
+    """Offset of the differential rays: ``DIFF_MM``, or 1 % of the smaller beam diameter for
+    beams under 1 mm, so the differential rays stay inside faces sized for a tiny beam."""
+    beam = system.beam
+    smallest = min(beam.diameter_in_plane_mm, beam.diameter_out_of_plane_mm)
+    return min(DIFF_MM, 0.01 * smallest) if smallest > 0 else DIFF_MM
+
+
 def _bundle(system: System, wavelengths: tuple[float, ...]) -> RayBundle:
     beam = system.beam
     ex, ey, ez = beam_frame(beam)
     wx, wy = beam.diameter_in_plane_mm / 2.0, beam.diameter_out_of_plane_mm / 2.0
-    offsets = np.array([[0, 0], [DIFF_MM, 0], [0, DIFF_MM], [wx, 0], [-wx, 0], [0, wy], [0, -wy],
+    diff = _diff_mm(system)
+    offsets = np.array([[0, 0], [diff, 0], [0, diff], [wx, 0], [-wx, 0], [0, wy], [0, -wy],
                         [0, 0], [0, 0]], float)
     o = np.asarray(beam.origin_mm, float) + offsets[:, :1] * ex + offsets[:, 1:] * ey
     shift = np.array([0, 0, 0, 0, 0, 0, 0, -DLAMBDA_NM, DLAMBDA_NM])
@@ -102,8 +112,9 @@ def _result(system: System, res: TraceResult, i: int, wavelength_nm: float, inde
     if not ok[3:7].all() and ok[0]:
         warnings.append(f"at {wavelength_nm:g} nm a 1/e^2 envelope ray does not leave the system: "
                         "the beam is clipped; enlarge the faces or move the beam")
-    m_in = _width(res, i, i + 1) / DIFF_MM if ok[0] and ok[1] else nan
-    m_out = _width(res, i, i + 2) / DIFF_MM if ok[0] and ok[2] else nan
+    diff = _diff_mm(system)
+    m_in = _width(res, i, i + 1) / diff if ok[0] and ok[1] else nan
+    m_out = _width(res, i, i + 2) / diff if ok[0] and ok[2] else nan
     if ok[0] and ok[3:5].all() and beam.diameter_in_plane_mm > 0:
         m_env = _width(res, i + 3, i + 4) / beam.diameter_in_plane_mm
         if abs(m_env - m_in) > CROSS_CHECK_REL * m_in:
@@ -157,7 +168,8 @@ def _faces(system: System, res: TraceResult, i: int, wavelength_nm: float, index
         same = (prisms[1:, k] == prisms[0, k]) & (faces[1:, k] == f)
         sx, hx = ((s[1] - s[0]), (h[1] - h[0])) if same[0] else (0.0, 0.0)
         sy, hy = ((s[2] - s[0]), (h[2] - h[0])) if same[1] else (0.0, 0.0)
-        scale_x, scale_y = wx / DIFF_MM, wy / DIFF_MM
+        diff = _diff_mm(system)
+        scale_x, scale_y = wx / diff, wy / diff
         foots.append((name, label, float(s[0]), 2.0 * math.hypot(sx * scale_x, sy * scale_y),
                       float(h[0]), 2.0 * math.hypot(hx * scale_x, hy * scale_y)))
     return tuple(aois), tuple(tirs), tuple(foots)
