@@ -426,12 +426,7 @@ def check(family: str, var: dict) -> str:
 
 OWN_FAMILIES = ("fold", "wedge", "custom")
 """Families whose solvers live beside this test (design/fold.py, wedge.py, custom.py)."""
-XFAIL: dict[str, str] = {
-    "brewster": (
-        "design/brewster.py: in a Brewster pair (starter brewster.yaml with pair: true) the "
-        "beam enters P2 through face B (marked exit) and leaves through face C (marked entry): "
-        "P2's entry/exit roles are swapped"),
-}
+XFAIL: dict[str, str] = {}
 
 
 def _family_params():
@@ -484,8 +479,7 @@ def test_cli_solve_fuzz(family, tmp_path, capsys):
 
 
 # --------------------------------------------------------------------------- known defects
-# Minimal failing specs the fuzzing found in modules this file does not own; each flips to
-# XPASS when fixed (then drop the mark).
+# Minimal specs on which the fuzzing once found defects; kept as regression tests.
 
 
 def _starter_with(family: str, **sections) -> t.Spec:
@@ -495,8 +489,6 @@ def _starter_with(family: str, **sections) -> t.Spec:
     return load_spec_text(yaml.safe_dump(data, sort_keys=False), source=f"{family}.yaml")
 
 
-@pytest.mark.xfail(reason="optics/measure.py: the differential ray 0.01 mm off the chief ray "
-                   "misses a prism sized for a 0.016 mm beam and is used anyway", strict=False)
 def test_known_tiny_beam_magnification():
     spec = _starter_with("anamorphic-single",
                          beam={"wavelength_nm": 210.0, "band_nm": [210.0, 260.0],
@@ -509,8 +501,6 @@ def test_known_tiny_beam_magnification():
     assert sol.performance.design.magnification_in_plane == pytest.approx(4.125, rel=1e-6)
 
 
-@pytest.mark.xfail(reason="design/brewster.py: the pair's P2 is entered through the face "
-                   "marked exit and left through the face marked entry", strict=False)
 def test_known_brewster_pair_roles():
     sol = pipeline.run(_starter_with("brewster", design={"pair": True}))
     n = float(materials.get("fused silica").n(780.0))
@@ -519,9 +509,6 @@ def test_known_brewster_pair_roles():
         assert aoi == pytest.approx(math.degrees(math.atan(n)), abs=DEV_TOL_DEG)
 
 
-@pytest.mark.xfail(reason="optics/_kernel.py search_inside: a subnormal direction component "
-                   "overflows the division (np.errstate ignores divide and invalid, not over)",
-                   strict=False)
 def test_known_subnormal_pose_overflow():
     spec = _starter_with("custom", design={"rotation_deg": 1e-308})
     pipeline.run(spec)

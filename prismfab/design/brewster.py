@@ -28,7 +28,7 @@ from prismfab.design import sizing
 from prismfab.design.anamorphic_pair import triangle_for
 from prismfab.design.common import PrismAngles, Section, material_of, trace_plane
 from prismfab.errors import SolveError
-from prismfab.model import Polarization, System
+from prismfab.model import FaceRole, Polarization, System
 from prismfab.spec.types import BrewsterDesign, Spec
 
 __all__ = ["brewster_apex_rad", "design", "optical_path_mm"]
@@ -103,7 +103,7 @@ def _design(spec: Spec, walk_factor: float) -> System:
     if spec.beam.polarization is not Polarization.P:
         rs = ((n * n - 1) / (n * n + 1)) ** 2
         warnings.append(f"Brewster faces pass p light only: s light loses {100 * rs:.1f} % per "
-                        "face (optics.md section 2); the reflected beams need a beam dump")
+                        "face (Fresnel equations); the reflected beams need a beam dump")
     drafts = [p1]
     if d.pair:
         p2, facts2 = _second(spec, d, p1, mat, t)
@@ -132,7 +132,11 @@ def _second(spec: Spec, d: BrewsterDesign, p1: sizing.Draft, mat, t: sizing.Size
     if _overlap(p1.vertices, verts2):
         raise SolveError("design.separation_mm", f"at {d.separation_mm:g} mm the prisms overlap",
                          reachable="a larger separation")
-    p2 = sizing.Draft("P2", mat.key, p1.index, verts2, p1.roles, p1.notes, 2.0 * mid - p1.pivot)
+    # Turned by 180 deg, P2 takes the beam in through the image of P1's exit face and lets it
+    # out through the image of P1's entry face: the two roles swap.
+    swap = {FaceRole.ENTRY: FaceRole.EXIT, FaceRole.EXIT: FaceRole.ENTRY}
+    roles2 = tuple(swap.get(r, r) for r in p1.roles)
+    p2 = sizing.Draft("P2", mat.key, p1.index, verts2, roles2, p1.notes, 2.0 * mid - p1.pivot)
     gdd = _gdd_fs2(spec, [p1, p2])
     lam = wl0 * 1e-9
     dn = float(mat.dn_dlambda_per_um(wl0)) * 1e6  # per m

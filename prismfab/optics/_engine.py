@@ -87,7 +87,7 @@ def _verify(tab: K.Tables, r: Rays, key: Key, target: F64) -> tuple[NDArray[np.b
     nv = solid.normals[f]
     o, d, pool, n = r.o, r.d, r.pool, r.n
     tmp = pool.get("tmp", n=n)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         dn = K.pdot(nv, d, pool.get("dn", n=n), tmp)
         t = K.pdot(nv, o, pool.get("t", n=n), tmp)
         np.subtract(solid.offsets_mm[f], t, out=t)

@@ -284,7 +284,7 @@ def _mixed(r: Rays, ev: EventArrays, p: int, f: int, role: int, c: F64, kk: F64,
     part = np.zeros(r.n, bool) if partial is None or role != ROLE_REFRACT else partial & ~tir
     coated = not math.isnan(refl)
     q1, q2, p1, p2 = n1 * c, n2 * ct, n2 * c, n1 * ct
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         root = 2.0 * np.sqrt(q1 * q2)
         ts = np.where(tir, 0.0, math.sqrt(1.0 - refl) if coated else root / (q1 + q2))
         tp = np.where(tir, 0.0, math.sqrt(1.0 - refl) if coated else root / (p1 + p2))

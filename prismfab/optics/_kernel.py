@@ -181,7 +181,7 @@ def _slab(solid: ConvexSolid, o: F64, d: F64) -> tuple[F64, I64]:
     t_out = np.full(n, np.inf)
     f_in = np.zeros(n, np.int64)
     miss = np.zeros(n, bool)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         for j in range(solid.normals.shape[0]):
             nv = solid.normals[j]
             dn = pdot(nv, d)
@@ -239,7 +239,7 @@ def search_inside(solid: ConvexSolid, o: F64, d: F64) -> tuple[F64, I64]:
     n = o.shape[1]
     best = np.full(n, np.inf)
     face = np.zeros(n, np.int64)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         for j in range(solid.normals.shape[0]):
             nv = solid.normals[j]
             dn = pdot(nv, d)
