@@ -314,6 +314,12 @@ class System:
     materials_file: str = ""
     tuning_columns: tuple[str, ...] = ()
 
+    def tuning_labels(self) -> tuple[str, ...]:
+        """What each column of the ``tuning`` rows holds, with its unit."""
+        if self.tuning_columns:
+            return self.tuning_columns
+        return ("magnification M",) + tuple(f"rotation of {p.name} (deg)" for p in self.prisms)
+
 
 @dataclass(frozen=True, slots=True)
 class Ghost:

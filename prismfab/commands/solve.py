@@ -14,7 +14,8 @@ heavy is imported (no CAD, drawing or PDF library).
     system:    family, magnification_in_plane, magnification_out_of_plane,
                wavelengths_nm[] (design first, then band edges), pointing_mrad[],
                lateral_offset_mm[], transmission[] (per wavelength, same order),
-               facts[]: [name, value, unit], tuning[]: [M, rotation per prism deg...],
+               facts[]: [name, value, unit], tuning[]: rows of numbers,
+               tuning_columns[]: what each tuning column holds (with its unit),
                warnings[] (solver, measurement and the checks listed below)
 
 ``--write-lock FILE`` writes the spec back with a ``lock:`` section (``prismfab.design.lock``):
@@ -133,6 +134,7 @@ def to_json(sol) -> dict:  # type: ignore[no-untyped-def]
         "transmission": [_r(r.transmission, 6) for r in ordered],
         "facts": [[n, _r(v, 6), u] for n, v, u in system.facts],
         "tuning": [[_r(x, 6) for x in row] for row in system.tuning],
+        "tuning_columns": list(system.tuning_labels()) if system.tuning else [],
         "warnings": warnings(sol),
     }
     return {"prisms": prisms, "system": sysd}
@@ -192,7 +194,7 @@ def table(data: dict) -> str:
     for name, value, unit in s["facts"]:
         lines.append(f"  {name}: {value:g} {unit}".rstrip())
     if s["tuning"]:
-        lines.append("  tuning (M, rotation per prism, deg): " + "; ".join(
+        lines.append(f"  tuning ({', '.join(s['tuning_columns'])}): " + "; ".join(
             ", ".join(f"{x:g}" for x in row) for row in s["tuning"]))
     for w in s["warnings"]:
         lines.append(f"  warning: {w}")

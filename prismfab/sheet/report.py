@@ -203,14 +203,15 @@ def _tolerance_rows(solution: Any) -> list[list[str]]:
 
 
 def _tuning_plot(solution: Any) -> Any | None:
-    rows = solution.system.tuning
+    system = solution.system
+    rows = system.tuning
     if not rows or len(rows[0]) < 2:
         return None
-    n = len(rows[0]) - 1
-    series = [(f"{solution.system.prisms[i].name} rotation" if i < len(solution.system.prisms)
-               else f"rotation {i + 1}", [(r[0], r[i + 1]) for r in rows]) for i in range(n)]
-    return line_plot(series, x_label="magnification M", y_label="prism rotation (°)",
-                     width_mm=120, height_mm=60)
+    labels = system.tuning_labels()
+    series = [(labels[i + 1] if i + 1 < len(labels) else f"column {i + 2}",
+               [(r[0], r[i + 1]) for r in rows]) for i in range(len(rows[0]) - 1)]
+    y_label = series[0][0] if len(series) == 1 else "value"
+    return line_plot(series, x_label=labels[0], y_label=y_label, width_mm=120, height_mm=60)
 
 
 def report_story(solution: Any) -> list[Any]:
@@ -256,8 +257,7 @@ def report_story(solution: Any) -> list[Any]:
         story.append(L.para("No first-order ghost leaves the system."))
     tuning = _tuning_plot(solution)
     if tuning is not None:
-        story += [L.subheading("5  Tuning range (prism rotations keeping the output parallel)"),
-                  tuning]
+        story += [L.subheading("5  Adjustment range"), tuning]
     story += [L.subheading("6  Tolerances and yield"), L.table(_tolerance_rows(solution))]
     report = solution.tolerance_report
     summary = getattr(report, "summary_lines", None)

@@ -281,7 +281,8 @@ _WEDGE = Section(
     (
         Field("material", _MATERIAL, _MATERIAL_DOC, required=True, example="\"fused silica\""),
         Field("deviation_deg", Number(exclusive_minimum=0.0, maximum=45.0),
-              "required beam deviation in degrees", required=True, example="2.0"),
+              "required beam deviation in degrees (for a pair: the maximum, wedges aligned)",
+              required=True, example="2.0"),
         Field("pair", Flag(), "a rotating wedge pair (beam steering)"),
         Field("incidence_deg", Number(minimum=0.0, maximum=80.0),
               "angle of incidence on the first face, degrees"),
