@@ -21,7 +21,7 @@ from prismfab.model import (
     Tolerances,
 )
 
-N_780 = 1.511183  # 517642 at 780 nm (shared/reference/optics.md section 6.5, computed value)
+N_780 = 1.511183  # 517642 at 780 nm, computed from its Sellmeier set (from memory, cross-checked)
 
 
 def brewster_normal_exit_prism(*, height_mm: float = 10.0, leg_mm: float = 12.0) -> Prism:

@@ -478,7 +478,7 @@ def _custom_grid() -> list[Spec]:
                                                    ("fused silica", "517642", "785257"),
                                                    (-2.0, 0.0, 2.0)):
         # equilateral prism, base face A, apex at vertex 2; entry face C turned to its
-        # minimum-deviation incidence (optics.md section 3), beam through mid-height of face C
+        # minimum-deviation incidence (Hecht, Optics §5.5.1, from memory), beam mid-height on C
         from prismfab import materials
         n = float(materials.get(material).n(632.8))
         phi1 = math.asin(n * math.sin(math.radians(30.0)))

@@ -77,7 +77,7 @@ def test_retrace_meets_magnification_and_pointing(design, family, m):
 
 
 def test_pair_offset_matches_segment_sum():
-    """Lateral offset = sum of segment length x sin(segment angle) (optics.md section 4.2)."""
+    """Lateral offset = sum of segment length x sin(segment angle) (geometry, derived)."""
     system, perf = _measured(_spec(VERIFY[0][0], Family.ANAMORPHIC_PAIR))
     facts = {n: v for n, v, _ in system.facts}
     assert perf.design.lateral_offset_mm == pytest.approx(facts["lateral offset"], abs=1e-6)
@@ -371,8 +371,8 @@ def test_collinear_grid_retraced():
 
 def test_brewster_grid_converges():
     """200 Brewster specs (single and pair) all solve with apex 2 atan(1/n); every 10th is
-    re-traced: M = 1 at minimum deviation (optics.md section 3), deviation 2 theta_B - A, and a
-    pair's output parallel to its input."""
+    re-traced: M = 1 at minimum deviation (Hecht, Optics §5.5.1, from memory), deviation
+    2 theta_B - A, and a pair's output parallel to its input."""
     from prismfab import materials
 
     cases = list(_grid_brewster())
@@ -392,7 +392,7 @@ def test_brewster_grid_converges():
 def test_dispersing_grid_converges():
     """200 dispersing specs (apex, dispersion, resolving power, Littrow) all solve; every 10th
     is re-traced: M = 1 at minimum deviation (and after the Littrow double pass), and the traced
-    dispersion equals the minimum-deviation formula of optics.md section 5 (Smith Eq. 7.7)."""
+    dispersion equals the minimum-deviation form of Smith, Modern Optical Engineering, Eq. 7.7."""
     cases = list(_grid_dispersing())
     assert len(cases) >= 200
     for k, (d, wl) in enumerate(cases):

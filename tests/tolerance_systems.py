@@ -2,8 +2,7 @@
 
 Each builder places a prism so that a chosen internal chief-ray direction is reached from a
 given system-frame input ray, by reverse Snell refraction at the entry face. The geometry is
-exact; the indices are plain numbers chosen by the test (n = 1.5 is the textbook value that
-shared/reference/optics.md tabulates).
+exact; the indices are plain numbers chosen by the test (n = 1.5 is the usual textbook value).
 """
 
 from __future__ import annotations
@@ -68,7 +67,7 @@ def wedge(apex_deg: float, n: float, *, width_mm: float = 20.0, thick_mm: float 
 
 
 def brewster(n: float, *, leg_mm: float = 12.0) -> System:
-    """Brewster entry on the hypotenuse, normal exit (optics.md section 3)."""
+    """Brewster entry on the hypotenuse, normal exit (M = n; Tunable Lasers Handbook, ch. 3)."""
     apex = math.atan(1.0 / n)
     b = leg_mm * math.tan(apex)
     verts = ((0.0, 0.0), (b, 0.0), (0.0, leg_mm))

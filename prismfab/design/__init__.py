@@ -3,7 +3,7 @@
 ``solve`` dispatches on ``spec.family`` to ``prismfab.design.<family>.design(spec)`` (module
 name = family value with "-" replaced by "_"). Each family returns a sized, verified
 ``System``: prisms at their poses with final section polygons, face roles and coatings, the
-beam, solver facts, tuning rows, warnings, clear apertures and AOI ranges. Shared helpers live
+beam, solver facts, tuning rows, warnings, clear apertures and AOI ranges. Shared functions live
 in ``design.common`` (geometry, 2D trace, assembly) and ``design.sizing`` (footprint -> clear
 aperture -> face length -> polygon). A spec with a ``lock:`` section gets the locked geometry
 (``design.lock``).

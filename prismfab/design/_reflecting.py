@@ -1,9 +1,9 @@
-"""Private helpers of the fold, wedge and custom solvers: TIR checks, scale fitting, chief facts.
+"""Private functions of the fold, wedge and custom solvers: TIR checks, scale fitting, chief facts.
 
 All geometry is in plane coordinates ``(z_mm, x_mm)`` of the beam plane (see
 ``prismfab.design.common``); the input chief ray is the system z axis.
 
-* **TIR check** (fabrication.md section 3.4, optics.md section 1): a reflecting face keeps total
+* **TIR check** (Snell's law; the margins are common practice): a reflecting face keeps total
   internal reflection when its internal angle of incidence stays above the critical angle
   ``asin(1/n)`` for every wavelength of the band, every input direction within half the in-plane
   divergence plus the alignment tilt, *and* an allowance of the grade's angle tolerance (a face
@@ -67,7 +67,7 @@ _TILT_SEARCH_DEG = 40.0
 
 def angle_allowance_rad(spec: Spec) -> float:
     """The angle-tolerance allowance: the explicit ``fabrication.angle_tolerance_arcsec`` or
-    the grade's default functional-angle tolerance (classes.GRADES, fabrication.md section 4)."""
+    the grade's default functional-angle tolerance (classes.GRADES, common practice)."""
     fab = spec.fabrication
     arcsec = fab.angle_tolerance_arcsec
     if arcsec is None:

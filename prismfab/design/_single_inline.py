@@ -3,11 +3,11 @@
 Geometry (an anamorphic relative of the Dove prism): the beam enters a steep entry face at
 ``phi1`` (width x ``k1``), is turned back towards the axis by total internal reflection on the
 base T, and leaves a *tilted* exit face that refracts it back parallel to the input
-(width x ``k2 < 1``), so ``M = k1 k2`` (optics.md section 3). Inside the glass the beam rises at
-``turn`` towards the exit; the exit face refracts it by exactly ``turn`` (internal incidence
-``psi2``, external ``phi2``, ``phi2 - psi2 = turn``, Snell). The reflection turns it by
-``dev1 + turn`` (``dev1 = phi1 - psi1``), so the base lies along the bisector
-``(turn - dev1) / 2`` and is met at ``90 deg - (dev1 + turn)/2``.
+(width x ``k2 < 1``), so ``M = k1 k2`` (Duarte, Tunable Lasers Handbook, ch. 2). Inside the
+glass the beam rises at ``turn`` towards the exit; the exit face refracts it by exactly
+``turn`` (internal incidence ``psi2``, external ``phi2``, ``phi2 - psi2 = turn``, Snell). The
+reflection turns it by ``dev1 + turn`` (``dev1 = phi1 - psi1``), so the base lies along the
+bisector ``(turn - dev1) / 2`` and is met at ``90 deg - (dev1 + turn)/2``.
 
 Why a tilted exit: with a normal exit the last internal segment lies on the axis, and its start
 point on the base puts the entry point outside the base's half plane for every geometry (the

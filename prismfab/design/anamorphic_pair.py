@@ -1,21 +1,23 @@
 """Anamorphic prism pair: in-plane magnification M with the output parallel to the input.
 
-Two prisms in the compensating mounting (optics.md section 4.2): P1 deviates towards -x
-(apex on +x), P2 back towards +x. The chief-ray angle model (``common.propagate_angles``) is
-solved for the unknowns (entry-normal direction and apex of each prism) by Newton iteration
-from the closed form of optics.md section 4.1, with four equations:
+Two prisms in the compensating mounting (Duarte and Piper, Am. J. Phys. 51 (1983)): P1
+deviates towards -x (apex on +x), P2 back towards +x. The chief-ray angle model
+(``common.propagate_angles``) is solved for the unknowns (entry-normal direction and apex of
+each prism) by Newton iteration from the normal-exit closed form (``normal_exit_incidence``),
+with four equations:
 
-* magnification: product of the face ratios ``k`` equals M (optics.md section 4.2);
+* magnification: product of the face ratios ``k`` equals M (Duarte, Tunable Lasers Handbook,
+  ch. 2);
 * parallel output: output direction equals the input direction;
 * per prism, its *normal face* (the exit face when expanding, the entry face when compressing,
   ``M < 1``, i.e. the expander used backwards) meets the chief ray at the anti-feedback tilt
-  (``exit_tilt_deg``, optics.md section 8); with ``normal_exit: false`` the steep face is set
+  (``exit_tilt_deg``, common practice); with ``normal_exit: false`` the steep face is set
   to Brewster's angle instead (p light passes it with almost no loss);
 * with ``achromatic: true`` the first-order angular dispersion (Duarte-Piper recursion,
   ``common.angular_dispersion``) must vanish at the design wavelength; that takes one degree of
   freedom, so the normal-face condition of the steep-first prism is dropped (the pair is
-  over-constrained otherwise, optics.md section 4.4), and the result is reported honestly,
-  with a warning when an incidence lands above 80 deg.
+  over-constrained otherwise; compare Trebino, Appl. Opt. 24, 1130 (1985)), and the result is
+  reported honestly, with a warning when an incidence lands above 80 deg.
 
 Tuning (``design._pair_tuning``): with the apex angles fixed, rotating both prisms keeps the
 output parallel along a one-parameter family. Two ranges are reported: the angle limits alone
@@ -61,8 +63,8 @@ GAP_MM = 1.0
 def normal_exit_incidence(m: float, n: float) -> tuple[float, float]:
     """(entry incidence phi1, apex A), rad, of a normal-exit prism of magnification m > 1.
 
-    Closed form of optics.md section 4.1: ``sin phi1 = sqrt((m^2 - 1)/(m^2 - 1/n^2))``,
-    ``A = asin(sin phi1 / n)``.
+    Closed form derived from Snell's law with ``cos psi1 = m cos phi1``:
+    ``sin phi1 = sqrt((m^2 - 1)/(m^2 - 1/n^2))``, ``A = asin(sin phi1 / n)``.
     """
     s = math.sqrt((m * m - 1.0) / (m * m - 1.0 / (n * n)))
     phi1 = math.asin(s)
@@ -208,7 +210,8 @@ def design(spec: Spec) -> System:
     mmax = max_normal_exit_m(ns[0]) * max_normal_exit_m(ns[1])
     names = " and ".join(dict.fromkeys(m_.name for m_ in mats))
     if pair is None and not d.normal_exit and not d.achromatic:
-        # Brewster entries fix k1 = n per prism and k2 <= 1, so M <= n1 n2 (optics.md section 3)
+        # Brewster entries fix k1 = n per prism and k2 <= 1, so M <= n1 n2 (Duarte (ed.),
+        # Tunable Lasers Handbook, ch. 3)
         raise SolveError("design.magnification",
                          f"with Brewster entry faces ({names} at {wl0:g} nm) a pair reaches at "
                          f"most M = {ns[0] * ns[1]:.3f}",

@@ -2,8 +2,9 @@
 
 * ``output: deviated`` with ``entry_aoi_deg`` unset: the exit face (the entry face when M < 1,
   the prism used backwards) is the *normal face*, tilted by ``exit_tilt_deg`` off normal against
-  feedback into the laser (optics.md section 8); the steep face then takes
-  ``k1 = M / k2(tilt)`` (optics.md sections 3 and 4.1; with no tilt this is the closed form
+  feedback into the laser (common practice); the steep face then takes
+  ``k1 = M / k2(tilt)`` (face ratios of Duarte, Tunable Lasers Handbook, ch. 2; with no tilt
+  this is the closed form, derived from Snell's law,
   ``sin phi1 = sqrt((M^2-1)/(M^2-1/n^2))``, ``A = asin(sin phi1/n)``). The base is square to
   the normal face.
 * ``entry_aoi_deg`` set: the entry incidence is fixed and the exit face takes the rest:

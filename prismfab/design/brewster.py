@@ -1,9 +1,9 @@
 """Brewster-cut prism at minimum deviation for p light, or a Brewster pair for dispersion control.
 
-Single prism: at minimum deviation the internal path is symmetric (optics.md section 3); with
-both faces at Brewster's angle ``theta_B = atan n`` the internal angle is ``90 deg - theta_B``, so
-the apex is ``A = 2 atan(1/n)`` (fabrication.md section 3.5). Both faces stay uncoated
-("UNCOATED - BREWSTER SURFACE").
+Single prism: at minimum deviation the internal path is symmetric (Hecht, Optics, §5.5.1, from
+memory); with both faces at Brewster's angle ``theta_B = atan n`` the internal angle is
+``90 deg - theta_B``, so the apex is ``A = 2 atan(1/n)`` (derived from the two relations). Both
+faces stay uncoated ("UNCOATED - BREWSTER SURFACE").
 
 Pair (``pair: true``): the second prism is the first turned by 180 deg about the midpoint of
 the apex-to-apex line, placed on the dispersed chief ray so that the apex-to-apex distance is

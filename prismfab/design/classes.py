@@ -1,11 +1,11 @@
 """Tolerance classes, material grades, ISO 10110 indications and coating requirement texts.
 
-The class values are common practice of optics shops (shared/reference/fabrication.md §4 and
-§7), not normative numbers; each ladder step carries the grade it belongs to. The indication
-strings follow the ISO 10110 code syntax: ``0/`` stress birefringence, ``1/`` bubbles and
-inclusions, ``2/`` inhomogeneity and striae (ISO 10110-2/-3/-4, now ISO 10110-18), ``3/`` surface
-form (ISO 10110-5, test wavelength always stated), ``5/`` surface imperfections (ISO 10110-7), or
-MIL-PRF-13830B scratch-dig. Coating texts state what ISO 9211-2 asks for.
+The class values are common practice of optics shops (published shop tolerance charts and glass
+catalogue grades), not normative numbers; each ladder step carries the grade it belongs to.
+The indication strings follow the ISO 10110 code syntax: ``0/`` stress birefringence, ``1/``
+bubbles and inclusions, ``2/`` inhomogeneity and striae (ISO 10110-2/-3/-4, now ISO 10110-18),
+``3/`` surface form (ISO 10110-5, test wavelength always stated), ``5/`` surface imperfections
+(ISO 10110-7), or MIL-PRF-13830B scratch-dig. Coating texts state what ISO 9211-2 asks for.
 """
 
 from __future__ import annotations
@@ -36,23 +36,24 @@ __all__ = [
 
 COMMERCIAL, PRECISION, HIGH = "commercial", "precision", "high-precision"
 
-# Ladders run from the loosest step to the tightest: (value, grade tag). Common practice (§4).
+# Ladders run from the loosest step to the tightest: (value, grade tag). Common practice.
 ANGLE_LADDER_ARCSEC = ((300.0, COMMERCIAL), (180.0, COMMERCIAL), (60.0, PRECISION),
                        (30.0, PRECISION), (10.0, HIGH), (5.0, HIGH), (3.0, HIGH))
 PYRAMIDAL_LADDER_ARCSEC = ((300.0, COMMERCIAL), (180.0, COMMERCIAL), (60.0, PRECISION),
                            (30.0, HIGH), (10.0, HIGH))
-ND_LADDER = ((0.0005, COMMERCIAL), (0.0003, PRECISION), (0.0002, HIGH))  # §7 catalogue ladder
+ND_LADDER = ((0.0005, COMMERCIAL), (0.0003, PRECISION), (0.0002, HIGH))  # common practice
 VD_LADDER_PCT = ((0.8, COMMERCIAL), (0.5, PRECISION), (0.3, HIGH))
-# Irregularity PV in fringes at 632.8 nm (1 fringe = λ/2): 1λ, λ/4, λ/10, λ/20 flatness (§4).
+# Irregularity PV in fringes at 632.8 nm (1 fringe = λ/2): 1λ, λ/4, λ/10, λ/20 flatness
+# (common practice).
 FLATNESS_LADDER_FRINGES = ((2.0, COMMERCIAL), (0.5, PRECISION), (0.2, HIGH), (0.1, HIGH))
 
 CLASS_COST = {COMMERCIAL: 1.0, PRECISION: 2.0, HIGH: 5.0}
-"""Relative unit cost per class step, common practice (§4: 1×, ~1.5-3×, ~3-10×; mid values)."""
+"""Relative unit cost per class step, common practice (1×, ~1.5-3×, ~3-10×; mid values)."""
 
 
 @dataclass(frozen=True, slots=True)
 class GradeDefaults:
-    """Default tolerances of one grade (common practice, fabrication.md §4)."""
+    """Default tolerances of one grade (common practice)."""
 
     angle_arcsec: float
     pyramidal_arcsec: float
@@ -133,7 +134,7 @@ def imperfections_iso(grade: str, *, clear_aperture_mm: tuple[float, float] | No
 
 @dataclass(frozen=True, slots=True)
 class MaterialGrade:
-    """Material quality of a part (fabrication.md §7, common practice)."""
+    """Material quality of a part (common practice; codes per ISO 10110-18)."""
 
     stress_nm_per_cm: float
     bubbles: tuple[int, float]  # (N, grade A in mm)
@@ -154,7 +155,7 @@ class MaterialGrade:
 
 def material_grade(grade: str, *, family: str, polarization_critical: bool,
                    largest_mm: float) -> MaterialGrade:
-    """Material grade from the fabrication grade and the application (§7 common practice).
+    """Material grade from the fabrication grade and the application (common practice).
 
     Every prismfab family carries a laser beam, so precision and high-precision parts get the
     laser beam-shaping row (fine anneal ≤5 nm/cm, ≤2 nm/cm when polarisation matters,

@@ -75,7 +75,7 @@ def angle_of(vector: Sequence[float]) -> float:
 
 
 def refract(d: np.ndarray, normal: np.ndarray, n1: float, n2: float) -> np.ndarray | None:
-    """Vector Snell's law in the plane (shared/reference/optics.md section 1).
+    """Vector Snell's law in the plane (Heckbert's form, in Glassner, Intro. to Ray Tracing, 1989).
 
     Args:
         d: unit direction of the incident ray.
@@ -101,7 +101,7 @@ def reflect(d: np.ndarray, normal: np.ndarray) -> np.ndarray:
 
 
 def fresnel_r(aoi_rad: float, n1: float, n2: float, polarization: Polarization) -> float:
-    """Power reflectance of an uncoated interface (optics.md section 2; 1.0 beyond TIR)."""
+    """Power reflectance of an uncoated interface (Smith, MOE 4th ed., Eq. 11.1; 1.0 beyond TIR)."""
     s = n1 * math.sin(aoi_rad) / n2
     if abs(s) >= 1.0:
         return 1.0
@@ -436,7 +436,7 @@ def trace_plane(sections: Sequence[Section], start: Sequence[float], theta_rad: 
             hits.append(Hit(k, face, p, along, aoi, "mirror"))
             continue
         n1, n2 = (1.0, sec.index) if inside is None else (sec.index, 1.0)
-        # vector Snell (optics.md section 1) with the normal against the ray
+        # vector Snell (Heckbert, in Glassner 1989) with the normal against the ray
         sx, sy, ci = (-nx, -ny, -c) if c > 0 else (nx, ny, c)
         cosi = -ci
         eta = n1 / n2
@@ -488,8 +488,9 @@ def angular_dispersion(theta_in_rad: float, prisms: Sequence[PrismAngles],
     """First-order angular dispersion d(theta_out)/d(lambda) of a prism sequence (rad per unit
     of ``dn_dlambda``'s wavelength).
 
-    This is the Duarte-Piper multiple-prism recursion (optics.md section 4.3) written face by
-    face in signed angles: differentiating ``n1 sin i = n2 sin r`` with ``i = theta - N`` gives
+    This is the multiple-prism recursion of Duarte and Piper (Am. J. Phys. 51 (1983); Duarte
+    (ed.), Tunable Lasers Handbook, ch. 2, Eqs. 11-15) written face by face in signed angles:
+    differentiating ``n1 sin i = n2 sin r`` with ``i = theta - N`` gives
     ``d theta' = (n1 cos i d theta + sin i dn1 - sin r dn2) / (n2 cos r)``, which, chained over
     the entry and exit faces, reproduces ``H2 dn + (k1 k2)^-1 (H1 dn +/- d phi_prev)`` with the
     orientation sign carried by the signed angles.

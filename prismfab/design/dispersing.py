@@ -5,12 +5,12 @@ Exactly one target is given:
 * ``apex_deg``: the apex itself.
 * ``dispersion_mrad_per_nm``: angular dispersion ``|d delta/d lambda| = (d delta/dn) |dn/d lambda|``
   with, at minimum deviation, ``d delta/dn = 2 sin(A/2) / sqrt(1 - n^2 sin^2(A/2))``
-  (optics.md section 5, from Smith Eq. 7.7). It grows with A; the apex is found by bisection up
-  to the apex whose entry incidence reaches 80 deg.
+  (Smith, Modern Optical Engineering, 4th ed., Eq. 7.7). It grows with A; the apex is found by
+  bisection up to the apex whose entry incidence reaches 80 deg.
 * ``resolving_power``: ``lambda/d lambda = b |dn/d lambda|`` with b the base length filled by the
-  beam (optics.md section 5). For a beam of width W (the 1/e^2 in-plane diameter) crossing at
-  minimum deviation, the path difference across it is ``b = W d delta/dn``, so the target is
-  the dispersion ``R / W`` and b is reported.
+  beam (Born and Wolf, Principles of Optics, §4.7, from memory). For a beam of width W (the
+  1/e^2 in-plane diameter) crossing at minimum deviation, the path difference across it is
+  ``b = W d delta/dn``, so the target is the dispersion ``R / W`` and b is reported.
 
 Littrow (``littrow: true``): half the prism (apex A/2), the back face coated as a mirror and met
 at normal incidence, so the light returns along its path; its double pass has the dispersion of

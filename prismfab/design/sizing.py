@@ -2,17 +2,18 @@
 
 Rules (each stated once, used by every family):
 
-* **Clear aperture** (optics.md section 7, common practice): on each optical face, for every
+* **Clear aperture** (common practice): on each optical face, for every
   traced condition (wavelengths of the band, tuning states, alignment decentre and tilt of
   ``spec.beam.alignment``), the 1/e^2 footprint of the beam (edge rays at +/- the 1/e^2 radius,
   opened by half the divergence) is scaled about its centre by
   ``spec.fabrication.clear_aperture_margin``; the clear aperture is the union over conditions.
-* **Face length** (fabrication.md section 4, common practice): the clear aperture may fill at
+* **Face length** (common practice): the clear aperture may fill at
   most ``CA_FRACTION[grade]`` of the face (commercial 80 %, precision 90 %, high precision
   95 %), so each end keeps a border ``ca (1/f - 1) / 2`` plus the bevel leg of that edge.
   Bevel leg on a dihedral theta for a bevel of face width w: ``a = w / (2 sin(theta/2))``
-  (stack.md section 2.6).
-* **Apex flats** (stack.md section 2.4): an apex sharper than ``APEX_FLAT_BELOW_DEG`` that no
+  (OCCT's chamfer builder takes legs along each face, drawings give the face width).
+* **Apex flats** (OCCT's chamfer builder fails once the bevel strips of an acute apex meet,
+  measured on this machine): an apex sharper than ``APEX_FLAT_BELOW_DEG`` that no
   light crosses is truncated by a ground flat of width ``max(2 bevel + 0.2 mm, 0.5 mm)``, so
   the bevel legs on its two edges never meet; the flat is a GROUND face with note "apex flat".
 * **Rounding**: defining lengths round UP to 0.1 mm; no face is shorter than
@@ -53,9 +54,10 @@ __all__ = [
 ]
 
 CA_FRACTION = {Grade.COMMERCIAL: 0.80, Grade.PRECISION: 0.90, Grade.HIGH_PRECISION: 0.95}
-"""Largest fraction of a face the clear aperture may fill (fabrication.md section 4, common practice)."""
+"""Largest fraction of a face the clear aperture may fill (common practice)."""
 APEX_FLAT_BELOW_DEG = 30.0
-"""Apices sharper than this get a ground flat (stack.md section 2.4)."""
+"""Apices sharper than this get a ground flat (below 20-30 deg OCCT's chamfer builder fails at
+usual bevel legs; measured)."""
 FLAT_MARGIN_MM = 0.2
 MIN_FLAT_MM = 0.5
 STEP_MM = 0.1

@@ -361,7 +361,7 @@ FieldPath = tuple[str, ...]
 
 
 class _File:
-    """One data file being read: the plain data, the YAML line of every field, error helper."""
+    """One data file being read: the plain data, the YAML line of every field, error builder."""
 
     def __init__(self, path: Path, *, user: bool) -> None:
         self.path = path

@@ -69,7 +69,7 @@ class FoldType(Enum):
 
 
 class Grade(Enum):
-    """Default tolerance class of the fabrication (shared/reference/fabrication.md section 4)."""
+    """Default tolerance class of the fabrication (class values are common practice)."""
 
     COMMERCIAL = "commercial"
     PRECISION = "precision"

