@@ -297,23 +297,33 @@ def _requirement_words(name: str) -> str:
     return _REQUIREMENT_WORDS.get(name, name)
 
 
-def _part_driving(rows: list[YieldRow]) -> str:
+_NOTHING_BINDS = "no requirement binds: the loosest standard classes meet the requirements"
+
+
+def _binding(rows: list[YieldRow]) -> tuple[YieldRow, str] | None:
+    """The tolerance whose next looser class loses the most yield, and the requirement it fails."""
     bound = [r for r in rows if r.looser_yield is not None]
     if not bound:
-        return "no requirement binds: the loosest standard classes meet the requirements"
+        return None
     r = min(bound, key=lambda r: r.looser_yield)  # type: ignore[arg-type,return-value]
     req = _requirement_words(max(r.looser_failing, key=lambda x: x[1])[0]
                              if r.looser_failing else "yield")
+    return r, req
+
+
+def _part_driving(rows: list[YieldRow]) -> str:
+    found = _binding(rows)
+    if found is None:
+        return _NOTHING_BINDS
+    r, req = found
     return f"{r.quantity} (one class looser: {r.looser_yield:.1%} yield, limited by {req})"
 
 
 def _driving(rows: list[YieldRow], result) -> str:  # type: ignore[no-untyped-def]
-    bound = [r for r in rows if r.looser_yield is not None]
-    if not bound:
-        return "no requirement binds: the loosest standard classes meet the requirements"
-    r = min(bound, key=lambda r: r.looser_yield)  # type: ignore[arg-type,return-value]
-    req = _requirement_words(max(r.looser_failing, key=lambda x: x[1])[0]
-                             if r.looser_failing else "yield")
+    found = _binding(rows)
+    if found is None:
+        return _NOTHING_BINDS
+    r, req = found
     return (f"{r.part} {r.quantity} ±{C.fmt_number(r.value)} {r.unit}".rstrip()
             + f": one class looser gives {r.looser_yield:.1%}, limited by {req}")
 
