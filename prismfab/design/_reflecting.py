@@ -21,10 +21,9 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from prismfab.design.classes import GRADES
-from prismfab.design.common import PlanePath, Section, trace_plane
+from prismfab.design.common import PlanePath, Section, bracketed_root, trace_plane
 from prismfab.design.sizing import (
     Draft,
     Placed,
@@ -245,7 +244,7 @@ def tilt_before_loss_deg(placed: Sequence[Placed], wavelength_nm: float, section
             except ValueError:  # the ray misses the face before TIR is lost
                 break
             try:
-                root = brentq(margin, lo, hi, xtol=1e-11)
+                root = bracketed_root(margin, lo, hi, xtol=1e-11)
             except ValueError:
                 break
             best = abs(root) if best is None else min(best, abs(root))

@@ -32,6 +32,7 @@ from prismfab.model import Coating, CoatingType, FaceRole, Polarization, Pose, P
 from prismfab.spec.types import Spec
 
 __all__ = [
+    "bracketed_root",
     "Hit",
     "PlanePath",
     "PrismAngles",
@@ -503,6 +504,59 @@ def angular_dispersion(theta_in_rad: float, prisms: Sequence[PrismAngles],
             d = (ev.n1 * math.cos(i) * d + math.sin(i) * dn1 - math.sin(r) * dn2) / (
                 ev.n2 * math.cos(r))
     return d
+
+
+def bracketed_root(f: Callable[[float], float], lo: float, hi: float, *, xtol: float = 1e-12,
+                   rtol: float = 4e-16, maxiter: int = 200) -> float:
+    """A root of ``f`` in ``[lo, hi]``, where ``f(lo)`` and ``f(hi)`` differ in sign.
+
+    Regula falsi with the Illinois modification, falling back to bisection whenever an
+    interpolated step would not shrink the bracket by half; stops when the bracket is narrower
+    than ``xtol + rtol * |x|``. Keeps scipy's optimizer (a slow import) off the solve path.
+
+    Raises:
+        ValueError: ``f`` does not change sign over the bracket.
+    """
+    a, b = float(lo), float(hi)
+    fa, fb = f(a), f(b)
+    if fa == 0.0:
+        return a
+    if fb == 0.0:
+        return b
+    if (fa > 0) == (fb > 0):
+        raise ValueError(f"no sign change between {a!r} and {b!r}")
+    side = 0
+    for _ in range(maxiter):
+        width = abs(b - a)
+        x = (a * fb - b * fa) / (fb - fa)
+        if not (min(a, b) < x < max(a, b)):
+            x = 0.5 * (a + b)
+        fx = f(x)
+        if fx == 0.0:
+            return x
+        if (fx > 0) == (fb > 0):
+            b, fb = x, fx
+            if side == -1:
+                fa *= 0.5
+            side = -1
+        else:
+            a, fa = x, fx
+            if side == 1:
+                fb *= 0.5
+            side = 1
+        if abs(b - a) > 0.5 * width:  # slow progress: bisect once
+            m = 0.5 * (a + b)
+            fm = f(m)
+            if fm == 0.0:
+                return m
+            if (fm > 0) == (fb > 0):
+                b, fb = m, fm
+            else:
+                a, fa = m, fm
+            side = 0
+        if abs(b - a) <= xtol + rtol * max(abs(a), abs(b)):
+            break
+    return 0.5 * (a + b)
 
 
 def newton(residual: Callable[[np.ndarray], np.ndarray], x0: Sequence[float], *,

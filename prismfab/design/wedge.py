@@ -38,10 +38,9 @@ import math
 from collections.abc import Callable
 
 import numpy as np
-from scipy.optimize import brentq
 
 from prismfab.design import _reflecting as rf
-from prismfab.design.common import material_of, polygon_from_lines, refract
+from prismfab.design.common import bracketed_root, material_of, polygon_from_lines, refract
 from prismfab.design.sizing import Draft, finish_system, height_mm, round_up
 from prismfab.errors import DesignCheckError, SolveError
 from prismfab.model import FaceRole, System
@@ -145,7 +144,7 @@ def solve_apex_rad(*, deviation_rad: float, n: float, incidence_rad: float, coun
                          reachable=reachable + "; use a higher-index material or another "
                          "incidence")
     f = lambda a: chain_deviation_rad(a, n, incidence_rad, count)[0] - deviation_rad  # noqa: E731
-    return float(brentq(f, 0.0, limit, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=200))
+    return float(bracketed_root(f, 0.0, limit, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=200))
 
 
 def _local_section(apex_rad: float, face_mm: float, centre_mm: float) -> np.ndarray:
