@@ -12,7 +12,8 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-FAMILIES = ("anamorphic-single", "anamorphic-pair", "brewster", "dispersing")
+FAMILIES = ("anamorphic-single", "anamorphic-pair", "brewster", "dispersing", "fold", "wedge",
+            "custom")
 GOAL_S = 1.0
 
 
