@@ -135,7 +135,8 @@ def entry() -> None:
     code = main()
     sys.stdout.flush()
     sys.stderr.flush()
-    if os.environ.get("PRISMFAB_FAST_EXIT", "1") == "1" and "cadquery" in sys.modules:
+    kernel_loaded = "cadquery" in sys.modules or "OCP" in sys.modules  # the writers use OCP alone
+    if os.environ.get("PRISMFAB_FAST_EXIT", "1") == "1" and kernel_loaded:
         # OCCT/VTK static destructors cost about a second at exit; every file is closed by now.
         os._exit(code)
     sys.exit(code)

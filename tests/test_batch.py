@@ -73,6 +73,21 @@ def test_pool_batch_keeps_order_and_reports_errors_per_item(tmp_path: Path) -> N
     assert again[0].status == "reused"
 
 
+def test_workers_get_one_numeric_thread_unless_set(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The pool's environment pins the BLAS/OpenMP pools to one thread; a user's value wins."""
+    import os
+
+    from prismfab.package.batch import THREAD_VARIABLES, _one_thread_per_worker
+
+    for name in THREAD_VARIABLES:
+        monkeypatch.delenv(name, raising=False)
+    monkeypatch.setenv("OMP_NUM_THREADS", "3")
+    with _one_thread_per_worker():
+        assert os.environ["OPENBLAS_NUM_THREADS"] == "1" and os.environ["MKL_NUM_THREADS"] == "1"
+        assert os.environ["OMP_NUM_THREADS"] == "3"
+    assert "OPENBLAS_NUM_THREADS" not in os.environ and os.environ["OMP_NUM_THREADS"] == "3"
+
+
 def test_solve_only_writes_nothing(tmp_path: Path) -> None:
     """--solve-only gives the figures and no folder."""
     items = expand([str(DEMO)], [])

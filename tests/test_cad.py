@@ -369,6 +369,28 @@ def test_byte_identical_across_processes(tmp_path: Path) -> None:
     assert sorted(p.name for p in runs[0].iterdir()) == ["assembly.step", "part.step"]
 
 
+def test_reused_solids_write_the_same_files(tmp_path: Path) -> None:
+    """Inside reuse_solids a part's solid is built once and shared; the STEP files do not change.
+
+    The files are the second and later ones this process writes: an assembly must not carry
+    ids that count on from earlier writes (a batch worker writes many).
+    """
+    from prismfab.cad.solid import reuse_solids
+
+    p1, p2 = sample_part(), equilateral_part(
+        pose=Pose.in_plane(angle_rad=1.1, x_mm=12.0, z_mm=40.0, height_mm=15.0))
+    assert build_solid(p1) is not build_solid(p1)  # outside the block: built afresh each time
+    fresh = [part_step(p1, tmp_path / "p1.step").read_bytes(),
+             assembly_step([p1, p2], tmp_path / "a.step").read_bytes()]
+    with reuse_solids():
+        assert build_solid(p1) is build_solid(p1)
+        assert build_solid(p1) is not build_solid(p1, method=ChamferMethod.PLANAR)
+        shared = [part_step(p1, tmp_path / "p1r.step").read_bytes(),
+                  assembly_step([p1, p2], tmp_path / "ar.step").read_bytes()]
+    assert fresh == shared
+    assert build_solid(p1) is not build_solid(p1)  # the block's store is gone
+
+
 def test_chamfer_that_cannot_fit() -> None:
     """5° apex with 0.5 mm bevels on every edge: a DesignCheckError that names the edge."""
     apex, length = math.radians(5.0), 10.0  # the failing case of stack.md section 2.4

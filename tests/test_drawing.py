@@ -335,6 +335,37 @@ def test_dxf_is_byte_identical(tmp_path: Path, dxf_docs: dict[str, object]) -> N
     assert a.read_bytes() == b.read_bytes()
 
 
+_SEED_PROBE = """
+import hashlib, sys, tempfile
+from pathlib import Path
+from prismfab.drawing import dxf, layout_part
+from tests.fixtures import sample_info, sample_part
+path = Path(tempfile.mkdtemp()) / "a.dxf"
+dxf.save(dxf.render(layout_part(sample_part(), sample_info())), path)
+print(hashlib.sha256(path.read_bytes()).hexdigest())
+"""
+
+
+def test_dxf_is_byte_identical_across_hash_seeds() -> None:
+    """Two processes with different string hash seeds write the same bytes (CLASSES order).
+
+    Seed 42 orders the CLASSES section differently from seed 0 when ezdxf is left to its set
+    iteration; the writer fixes the order.
+    """
+    import os
+    import subprocess
+    import sys
+
+    root = Path(__file__).resolve().parents[1]
+    digests = []
+    for seed in ("0", "42"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        done = subprocess.run([sys.executable, "-c", _SEED_PROBE], capture_output=True, text=True,
+                              cwd=root, env=env, timeout=120, check=True)
+        digests.append(done.stdout.strip())
+    assert digests[0] == digests[1]
+
+
 def test_dxf_save_reports_unwritable_folder(tmp_path: Path, dxf_docs: dict[str, object]) -> None:
     """A missing folder is an OutputError and leaves nothing behind."""
     from prismfab.drawing import dxf
@@ -451,6 +482,20 @@ def test_apex_flat_angle_at_the_virtual_corner(sheets: dict[str, Sheet], tmp_pat
 def test_functional_angles_row_names_the_angle_across_the_flat(sheets: dict[str, Sheet]) -> None:
     """The tolerance block lists the angle across the flat with the vertex angles."""
     assert any("B/D across C" in c for c in _cells(sheets["apex-flat"]))
+
+
+def test_template_file_is_read_again_after_an_edit(tmp_path: Path) -> None:
+    """Templates are parsed once per file version: an edited file gives the edited values."""
+    source = load_template("a3-landscape")
+    path = tmp_path / "mine.yaml"
+    text = (Path(__file__).resolve().parents[1] / "templates" / "sheets" / "a3-landscape.yaml"
+            ).read_text(encoding="utf-8")
+    path.write_text(text, encoding="utf-8")
+    first = load_template(str(path))
+    assert first.width_mm == source.width_mm and load_template(str(path)) is first
+    assert "name: a3-landscape" in text
+    path.write_text(text.replace("name: a3-landscape", "name: my-own-a3-sheet"), encoding="utf-8")
+    assert load_template(str(path)).name == "my-own-a3-sheet"
 
 
 def test_chosen_scale_is_the_largest_that_fits() -> None:

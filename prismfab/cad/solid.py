@@ -30,7 +30,9 @@ and boolean operations renumber the topology.
 
 from __future__ import annotations
 
+import contextlib
 import math
+from collections.abc import Iterator
 from dataclasses import dataclass
 from enum import Enum
 from typing import Any
@@ -55,6 +57,7 @@ __all__ = [
     "find_face",
     "part_solid",
     "quiet_kernel",
+    "reuse_solids",
 ]
 
 TOP = "TOP"
@@ -303,8 +306,37 @@ def quiet_kernel() -> None:
         printer.SetTraceLevel(Message_Gravity.Message_Fail)
 
 
+_REUSE: dict[tuple[Part, ChamferMethod], BuiltSolid] | None = None
+
+
+@contextlib.contextmanager
+def reuse_solids() -> Iterator[None]:
+    """Within the block, ``build_solid`` builds each part's solid once and hands it out again.
+
+    A package writes each part's STEP file and then the assembly, which holds the same solids;
+    the kernel shapes are never modified after they are built, so sharing them is safe. Outside
+    such a block every call builds afresh.
+    """
+    global _REUSE
+    outer = _REUSE
+    _REUSE = {} if outer is None else outer
+    try:
+        yield
+    finally:
+        _REUSE = outer
+
+
 def build_solid(part: Part, *, method: ChamferMethod = ChamferMethod.AUTO) -> BuiltSolid:
     """Build the bevelled solid and report how (kernel objects; see ``part_solid``)."""
+    if _REUSE is None:
+        return _build(part, method)
+    key = (part, method)
+    if key not in _REUSE:
+        _REUSE[key] = _build(part, method)
+    return _REUSE[key]
+
+
+def _build(part: Part, method: ChamferMethod) -> BuiltSolid:
     quiet_kernel()
     bevs = bevels(part)
     base = _extrude(part)
@@ -315,7 +347,7 @@ def build_solid(part: Part, *, method: ChamferMethod = ChamferMethod.AUTO) -> Bu
     if method is not ChamferMethod.PLANAR:
         shape = _chamfer(part, base, bevs)
         if shape is not None and _is_valid(shape):
-            return _checked(part, BuiltSolid(shape, ChamferMethod.BUILDER, planes))
+            return BuiltSolid(shape, ChamferMethod.BUILDER, planes)  # checked just now
         if method is ChamferMethod.BUILDER:
             raise DesignCheckError(_BEVEL_PATH, f"part {part.number}: the chamfer builder failed "
                                    "on bevels that pass the fit check; use the planar method")

@@ -208,6 +208,7 @@ def write_document(doc: Any, path: Path, *, products: dict[str, tuple[str, str, 
                           "the solid")
     model = writer.ChangeWriter().Model()
     _rename_products(model, products)
+    _number_usages(model)
     _set_header(model, file_name=file_name, description=description)
     tmp = _temp_path(path)
     try:
@@ -262,6 +263,24 @@ def _rename_products(model: Any, products: dict[str, tuple[str, str, str]]) -> N
             entity.SetId(TCollection_HAsciiString(wanted[0]))
             entity.SetName(TCollection_HAsciiString(wanted[1]))
             entity.SetDescription(TCollection_HAsciiString(wanted[2]))
+
+
+def _number_usages(model: Any) -> None:
+    """Number the assembly usage occurrences 1, 2, ... in file order.
+
+    The kernel's STEP writer takes these ids from a counter that lives as long as the process,
+    so a second assembly written by the same process (a batch worker) would get 4, 5, 6 where
+    the first got 1, 2, 3: the same input would not give the same bytes.
+    """
+    from OCP.StepRepr import StepRepr_NextAssemblyUsageOccurrence
+    from OCP.TCollection import TCollection_HAsciiString
+
+    count = 0
+    for i in range(1, model.NbEntities() + 1):
+        entity = model.Value(i)
+        if isinstance(entity, StepRepr_NextAssemblyUsageOccurrence):
+            count += 1
+            entity.SetId(TCollection_HAsciiString(str(count)))
 
 
 def _set_header(model: Any, *, file_name: str, description: str) -> None:

@@ -11,6 +11,8 @@ groups into place once the scale is chosen.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
+from dataclasses import dataclass
 
 from prismfab.drawing import callouts, dims, fmt
 from prismfab.drawing.geom import add, dist, mul, sub, unit
@@ -21,7 +23,10 @@ from prismfab.drawing.views import (
 )
 from prismfab.model import Part
 
-__all__ = ["main_group", "perpendicularity_zone_mm", "side_group"]
+__all__ = [
+    "Started", "main_finish", "main_group", "main_start", "perpendicularity_zone_mm", "side_finish",
+    "side_group", "side_start",
+]
 
 P2 = tuple[float, float]
 LEVEL_MM = (9.0, 17.0)  # dimension line offsets from a face: first and second level
@@ -41,9 +46,35 @@ def _construction(a: P2, b: P2) -> Line:
     return Line(a, b, LineType.CONTINUOUS, Width.NARROW, Layer.DIMENSION)
 
 
+@dataclass(slots=True)
+class Started:
+    """A view group laid out up to its leaders and callouts (``main_start`` / ``side_start``).
+
+    ``entities`` are the first entities of the finished group, unchanged, so their bounding box
+    is a lower bound of the finished group's: the layout rejects a scale on it without placing
+    any callout. ``main_finish`` / ``side_finish`` append the rest on the same placer.
+    """
+
+    part: Part
+    scale: float
+    text_h: float
+    decimal_comma: bool
+    placer: Placer
+    entities: list[Entity]
+    pts: tuple[P2, ...] = ()
+    ray: tuple[P2, ...] = ()
+
+
 def main_group(part: Part, scale: float, *, text_h: float, decimal_comma: bool
                ) -> list[Entity]:
     """The principal section with its dimensions and annotations, part origin at paper (0, 0)."""
+    out = main_finish(main_start(part, scale, text_h=text_h, decimal_comma=decimal_comma))
+    assert out is not None  # finished without a room check
+    return out
+
+
+def main_start(part: Part, scale: float, *, text_h: float, decimal_comma: bool) -> Started:
+    """The principal section with its dimensions, angles and datum B (no leaders yet)."""
     placer = Placer(UNBOUNDED)
     pts, outline = main_outline(part, ViewFrame(scale, (0.0, 0.0)), placer)
     out: list[Entity] = list(outline)
@@ -66,11 +97,31 @@ def main_group(part: Part, scale: float, *, text_h: float, decimal_comma: bool
     out += _cross_angles(part, pts, text_h, placer, plan)
     out += _angles(part, pts, text_h, placer, plan)
     out += _datum_b(part, pts, text_h, placer, datum)
-    out += _edge_callouts(part, pts, text_h, placer)
-    out += _perpendicularity(part, pts, text_h, placer, decimal_comma)
-    if len(ray) >= 2:
-        out += callouts.ray_path(ray, polarization_note=part.polarization_note, text_h=text_h,
-                                 placer=placer)
+    return Started(part, scale, text_h, decimal_comma, placer, out, pts, ray)
+
+
+def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None = None
+                ) -> list[Entity] | None:
+    """``main_start``'s entities followed by the edge callouts, tolerance frames and ray path.
+
+    Args:
+        g: the started group.
+        keep_going: called with each stage's new entities; when it returns False the group is
+            abandoned (None is returned), e.g. because the views already overflow the sheet.
+    """
+    out = list(g.entities)
+    stages: list[Callable[[], list[Entity] | tuple[Entity, ...]]] = [
+        lambda: _edge_callouts(g.part, g.pts, g.text_h, g.placer),
+        lambda: _perpendicularity(g.part, g.pts, g.text_h, g.placer, g.decimal_comma),
+    ]
+    if len(g.ray) >= 2:
+        stages.append(lambda: callouts.ray_path(g.ray, polarization_note=g.part.polarization_note,
+                                                text_h=g.text_h, placer=g.placer))
+    for stage in stages:
+        new = list(stage())
+        out += new
+        if keep_going is not None and not keep_going(new):
+            return None
     return out
 
 
@@ -79,6 +130,11 @@ def side_group(part: Part, scale: float, *, text_h: float, decimal_comma: bool) 
 
     Z = 0 at paper x = 0, part Y = 0 at y = 0.
     """
+    return side_finish(side_start(part, scale, text_h=text_h, decimal_comma=decimal_comma))
+
+
+def side_start(part: Part, scale: float, *, text_h: float, decimal_comma: bool) -> Started:
+    """The second view with the height and datum A (no bevel callout yet)."""
     placer = Placer(UNBOUNDED)
     side = ViewFrame(scale, (0.0, 0.0))
     out: list[Entity] = list(side_view(part, side, placer))
@@ -94,10 +150,19 @@ def side_group(part: Part, scale: float, *, text_h: float, decimal_comma: bool) 
             foot = side.side(0.0, min(ys) + 0.75 * (max(ys) - min(ys)))
             out += callouts.datum_symbol(foot, (0.0, 1.0), (1.0, 0.0), letter, text_h=text_h,
                                          placer=placer)
+    return Started(part, scale, text_h, decimal_comma, placer, out)
+
+
+def side_finish(g: Started) -> list[Entity]:
+    """``side_start``'s entities followed by the bevel callout."""
+    out = list(g.entities)
+    part = g.part
     if part.bevelled_edges:
-        bevel = fmt.number_text(part.bevel_mm, 1, decimal_comma=decimal_comma)
-        lead = callouts.leader(side.side(0.0, max(ys)), (f"bevel {bevel} max × 45°", "edges as note 5"),
-                               text_h=note_height_mm(text_h), placer=placer, towards=(0.0, 1.0))
+        ys = [p[1] for p in part.prism.vertices_mm]
+        bevel = fmt.number_text(part.bevel_mm, 1, decimal_comma=g.decimal_comma)
+        lead = callouts.leader(ViewFrame(g.scale, (0.0, 0.0)).side(0.0, max(ys)),
+                               (f"bevel {bevel} max × 45°", "edges as note 5"),
+                               text_h=note_height_mm(g.text_h), placer=g.placer, towards=(0.0, 1.0))
         if lead:
             out.append(lead)
     return out

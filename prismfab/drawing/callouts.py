@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import math
+from typing import Any
 
-from prismfab.drawing.geom import add, box_hits_segment, dist, mul, sub, text_width_mm, unit
+from prismfab.drawing.geom import add, dist, mul, sub, text_width_mm, unit
 from prismfab.drawing.placer import Placer
 from prismfab.drawing.sheet import (
     LINE_PITCH, Circle, Entity, Layer, Leader, Line, LineType, Polyline, Solid, Text, Width,
@@ -61,54 +62,82 @@ PREFER_DEG = (45, 135, -45, -135, 60, 120, -60, -120, 30, 150, -30, -150, 75, 10
 DISTANCES_MM = (9, 13, 18, 24, 31, 40, 50, 62, 75, 90)
 
 
-def _leg_is_clear(placer: Placer, tip: P2, elbow: P2, *, cross_views: bool) -> bool:
-    """A leader leg may not run through text, cross a line already drawn, or cross a view."""
-    start = add(tip, mul(unit(sub(elbow, tip)), 0.6))
-    if any(box_hits_segment(b, start, elbow) for b in placer.boxes):
-        return False
-    if placer.crosses_segments(start, elbow):
-        return False
-    return cross_views or not placer.crosses_region(start, elbow)
+def _trials(tip: P2, w: float, h: float, text_h: float, distances: tuple[float, ...],
+            prefer_deg: tuple[float, ...]) -> tuple[Any, Any, Any, Any, Any]:
+    """Every trial leader spot, distance-major: elbows, shoulder ends, sides and text boxes.
+
+    Rows follow ``distances``, columns ``prefer_deg``. Returns (elbow x, elbow y, end x, right,
+    boxes); the arithmetic is the scalar formula's, element by element.
+    """
+    import numpy as np
+
+    shoulder = 2.5
+    cos = np.array([math.cos(math.radians(a)) for a in prefer_deg])
+    sin = np.array([math.sin(math.radians(a)) for a in prefer_deg])
+    d = np.array(distances, dtype=float)[:, None]
+    ex, ey = tip[0] + d * cos, tip[1] + d * sin
+    right = np.broadcast_to(cos >= -1e-9, ex.shape)
+    end_x = np.where(right, ex + shoulder, ex - shoulder)
+    tx = np.where(right, end_x + 1.0, end_x - 1.0)
+    top = ey + text_h / 2 + 0.2
+    boxes = np.stack([np.where(right, tx - 0.6, tx - w - 0.6), top - h - 0.8,
+                      np.where(right, tx + w + 0.6, tx + 0.6), top + 0.6], axis=-1)
+    return ex, ey, end_x, right, boxes
+
+
+def _off_tip(tip: P2, elbow: P2, gap_mm: float = 0.6) -> P2:
+    """Where a leg starts: ``gap_mm`` from the tip towards the elbow (``add(tip, mul(unit(..``)."""
+    vx, vy = elbow[0] - tip[0], elbow[1] - tip[1]
+    n = math.hypot(vx, vy)
+    return tip[0] + vx / n * gap_mm, tip[1] + vy / n * gap_mm
 
 
 def find_spot(tip: P2, w: float, h: float, *, placer: Placer, text_h: float,
               prefer_deg: tuple[float, ...] = PREFER_DEG, distances: tuple[float, ...] = DISTANCES_MM,
               towards: P2 | None = None, cross_views: bool = False
               ) -> tuple[P2, P2, bool, tuple[float, float, float, float]] | None:
-    """Elbow, shoulder end, side (True = text right) and box of a free w x h block for a leader."""
-    shoulder = 2.5
+    """Elbow, shoulder end, side (True = text right) and box of a free w x h block for a leader.
+
+    Spots go out ring by ring (one distance, every direction, nearest the preferred direction
+    first). A spot's text box must be free; its leg may not run through text, cross a line
+    already drawn or (unless ``cross_views``) cross a view; its shoulder may not cross a line.
+    The cheapest spot wins: the paper it adds to the views, then leg length, then direction.
+    Every spot is screened in one array pass (the placer does not change during the search).
+    """
     if towards is not None:  # try directions nearest the preferred one first
         aim = math.degrees(math.atan2(towards[1], towards[0]))
         prefer_deg = tuple(sorted(prefer_deg, key=lambda a: abs((a - aim + 180.0) % 360.0 - 180.0)))
     ext = placer.extent()
     prefer_deg = tuple(prefer_deg) + tuple(a for a in (90, -90) if a not in prefer_deg)
+    ex, ey, end_x, right, boxes = _trials(tip, w, h, text_h, distances, prefer_deg)
+    n_ang = len(prefer_deg)
+    flat = boxes.reshape(-1, 4)
+    free = placer.free_many(flat)
+    ok = [i for i, f in enumerate(free) if f]
+    elbows = list(zip(ex.flat[ok].tolist(), ey.flat[ok].tolist(), strict=True))
+    legs = [(_off_tip(tip, e), e) for e in elbows]
+    shoulders = [(e, (x, e[1])) for x, e in zip(end_x.flat[ok].tolist(), elbows, strict=True)]
+    leg_ok = placer.legs_clear(legs, cross_views=cross_views)
+    shoulder_hit = placer.crosses_many(shoulders)
+    good = {i: (e, s[1]) for i, e, s, a, b in zip(ok, elbows, shoulders, leg_ok, shoulder_hit,
+                                                  strict=True) if a and not b}
     best: tuple[float, tuple[P2, P2, bool, tuple[float, float, float, float]]] | None = None
-    for d in distances:
+    for k, d in enumerate(distances):
         if best is not None and d > distances[0] and best[0] <= d * 0.2:
             break  # nothing farther out can beat a spot that keeps the views compact
-        for rank, ang in enumerate(prefer_deg):
-            a = math.radians(ang)
-            elbow = (tip[0] + d * math.cos(a), tip[1] + d * math.sin(a))
-            right = math.cos(a) >= -1e-9
-            end = (elbow[0] + (shoulder if right else -shoulder), elbow[1])
-            tx = end[0] + (1.0 if right else -1.0)
-            top = elbow[1] + text_h / 2 + 0.2
-            box = (tx - 0.6 if right else tx - w - 0.6, top - h - 0.8,
-                   tx + w + 0.6 if right else tx + 0.6, top + 0.6)
-            if not placer.free(box):
+        for rank in range(n_ang):
+            i = k * n_ang + rank
+            if i not in good:
                 continue
-            if (not _leg_is_clear(placer, tip, elbow, cross_views=cross_views)
-                    or placer.crosses_segments(elbow, end)):
-                continue
-            # Cost: paper the views grow by (they must fit the sheet), then leg length, then
-            # the preferred direction.
+            box = tuple(float(v) for v in flat[i])
             # Sideways growth costs more: the two views stand side by side on a sheet whose
             # view area is taller than the views are.
             grow = 0.0 if ext is None else (3.0 * (max(0.0, ext[0] - box[0]) + max(0.0, box[2] - ext[2]))
                                             + max(0.0, ext[1] - box[1]) + max(0.0, box[3] - ext[3]))
             cost = grow + 0.2 * d + 0.01 * rank
             if best is None or cost < best[0] - 1e-9:
-                best = (cost, (elbow, end, right, box))
+                elbow, end = good[i]
+                best = (cost, (elbow, end, bool(right.flat[i]), box))  # type: ignore[assignment]
     return None if best is None else best[1]
 
 

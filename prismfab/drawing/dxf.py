@@ -244,6 +244,7 @@ def save(doc: Any, path: str | os.PathLike[str]) -> Path:
         fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".part", dir=target.parent)
         os.close(fd)
         ezdxf.options.write_fixed_meta_data_for_testing = True
+        _fix_class_order(doc)
         doc.saveas(tmp)
         os.replace(tmp, target)
     except OSError as err:
@@ -254,3 +255,22 @@ def save(doc: Any, path: str | os.PathLike[str]) -> Path:
         if tmp and os.path.exists(tmp):
             os.unlink(tmp)
     return target
+
+
+def _fix_class_order(doc: Any) -> None:
+    """Register the CLASSES section entries in a fixed order before the document is written.
+
+    On writing, ezdxf adds its required classes and then one class per entity type in use,
+    iterating a set of type names, whose order follows the string hash seed of the process:
+    two runs would write the CLASSES section in different orders. Registering the same classes
+    first (required ones in ezdxf's order, the rest sorted) fixes the order; ezdxf's own pass
+    then finds them all present.
+    """
+    from ezdxf.sections.classes import REQ_R2004, REQUIRED_CLASSES
+
+    if doc.dxfversion <= "AC1009":  # DXF R12 has no CLASSES section
+        return
+    for name in REQUIRED_CLASSES.get(doc.dxfversion, REQ_R2004):
+        doc.classes.add_class(name)
+    for name in sorted(doc.entitydb.dxf_types_in_use()):
+        doc.classes.add_class(name)

@@ -5,6 +5,8 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
+from prismfab.drawing import fonts
+
 __all__ = [
     "add", "box_hits_segment", "boxes_overlap", "dist", "mul", "norm", "perp_cw", "rect_of_text",
     "sub", "text_width_mm", "unit",
@@ -45,8 +47,6 @@ def perp_cw(a: P2) -> P2:
 
 def text_width_mm(text: str, height_mm: float, bold: bool = False) -> float:
     """Advance width of one line of text on the sheet, mm (the font's real metrics)."""
-    from prismfab.drawing import fonts
-
     return fonts.text_width_mm(text, height_mm, bold)
 
 

@@ -9,8 +9,10 @@ so a backend can set its length factor to 1/scale and measure true part sizes.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from prismfab.drawing import annotate, tables
-from prismfab.drawing.extent import bbox, translate
+from prismfab.drawing.extent import bbox, translate, union
 from prismfab.drawing.frame import frame, revision_table, title_block
 from prismfab.drawing.geom import Rect
 from prismfab.drawing.sheet import Entity, Sheet
@@ -25,6 +27,7 @@ ISO_5455_SCALES = ((50, 1), (20, 1), (10, 1), (5, 1), (2, 1), (1, 1), (1, 2), (1
 """Recommended scales of ISO 5455 (enlargement, full size, reduction), largest first."""
 VIEW_GAP_MM = 6.0  # free paper between the two views' annotations
 AREA_PAD_MM = 1.5  # free paper between the views and the edge of the view area
+SURE_MM = 1e-6  # rounding margin of the early size check (paper mm)
 
 
 def _groups(part: Part, scale: float, text_h: float, projection: str, decimal_comma: bool
@@ -33,9 +36,30 @@ def _groups(part: Part, scale: float, text_h: float, projection: str, decimal_co
 
     Returns the entities and their bounding box, in paper mm about an arbitrary origin.
     """
-    main = annotate.main_group(part, scale, text_h=text_h, decimal_comma=decimal_comma)
-    side = annotate.side_group(part, scale, text_h=text_h, decimal_comma=decimal_comma)
-    mb, sb = bbox(main, text_h), bbox(side, text_h)
+    main = annotate.main_start(part, scale, text_h=text_h, decimal_comma=decimal_comma)
+    side = annotate.side_start(part, scale, text_h=text_h, decimal_comma=decimal_comma)
+    done = _finish(main, side, text_h, projection)
+    assert done is not None  # no room given: always finished
+    return done
+
+
+def _finish(main_started: annotate.Started, side_started: annotate.Started, text_h: float,
+            projection: str, room: tuple[float, float] | None = None
+            ) -> tuple[list[Entity], Rect] | None:
+    """Finish both groups and set them side by side; None as soon as they overflow ``room``.
+
+    Args:
+        room: the width and height (paper mm) the views must fit, checked after every stage
+            of the main view (its bounding box only grows); None to finish regardless.
+    """
+    side = annotate.side_finish(side_started)
+    sb = bbox(side, text_h)
+    assert sb is not None  # both views always draw an outline
+    keep_going = None if room is None else _room_check(main_started, sb, text_h, room)
+    main = annotate.main_finish(main_started, keep_going=keep_going)
+    if main is None:
+        return None
+    mb = bbox(main, text_h)
     assert mb is not None and sb is not None  # both views always draw an outline
     # The second view sees the part from +X: first angle puts it left of the section, third right.
     dx = mb[0] - VIEW_GAP_MM - sb[2] if projection == "first-angle" else mb[2] + VIEW_GAP_MM - sb[0]
@@ -46,6 +70,38 @@ def _groups(part: Part, scale: float, text_h: float, projection: str, decimal_co
     return both, box
 
 
+def _room_check(main: annotate.Started, sb: Rect, text_h: float, room: tuple[float, float]
+                ) -> Callable[[list[Entity]], bool]:
+    """A ``keep_going`` test: the views, as far as laid out, still fit ``room``."""
+    box = bbox(main.entities, text_h)
+    assert box is not None
+
+    def keep_going(new: list[Entity]) -> bool:
+        nonlocal box
+        grown = bbox(new, text_h)
+        if grown is not None:
+            box = union([box, grown])  # type: ignore[list-item]
+        assert box is not None
+        w = box[2] - box[0] + VIEW_GAP_MM + sb[2] - sb[0]
+        h = max(box[3], sb[3]) - min(box[1], sb[1])
+        return w <= room[0] + SURE_MM and h <= room[1] + SURE_MM
+
+    return keep_going
+
+
+def _least_size(main: annotate.Started, side: annotate.Started, text_h: float
+                ) -> tuple[float, float]:
+    """Width and height (paper mm) the two views need at least, from their started entities.
+
+    The finished groups hold these entities and more, and the layout sets the views side by
+    side ``VIEW_GAP_MM`` apart, so the finished layout is never smaller than this.
+    """
+    mb, sb = bbox(main.entities, text_h), bbox(side.entities, text_h)
+    assert mb is not None and sb is not None
+    return (mb[2] - mb[0] + VIEW_GAP_MM + sb[2] - sb[0],
+            max(mb[3], sb[3]) - min(mb[1], sb[1]))
+
+
 def choose_scale(part: Part, area_w_mm: float, area_h_mm: float, *, text_h: float = 3.5,
                  projection: str = "first-angle", decimal_comma: bool = False) -> tuple[float, str]:
     """Largest ISO 5455 scale at which both views with their dimensions fit the view area."""
@@ -54,23 +110,33 @@ def choose_scale(part: Part, area_w_mm: float, area_h_mm: float, *, text_h: floa
 
 def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projection: str,
          decimal_comma: bool) -> tuple[float, str, list[Entity], Rect]:
-    last: tuple[float, str, list[Entity], Rect] | None = None
+    """The largest scale whose full layout fits, else the smallest scale's layout.
+
+    A scale is laid out in full (leaders and callouts are the costly part) only when neither the
+    bare views nor the views with their dimensions alone already overflow the area.
+    """
     xs = [p[0] for p in part.prism.vertices_mm]
     ys = [p[1] for p in part.prism.vertices_mm]
     bare_w = max(xs) - min(xs) + part.prism.height_mm
     bare_h = max(ys) - min(ys)
+    room_w, room_h = area_w_mm - 2 * AREA_PAD_MM, area_h_mm - 2 * AREA_PAD_MM
     for k, (num, den) in enumerate(ISO_5455_SCALES):
         scale = num / den
-        if (k < len(ISO_5455_SCALES) - 1
-                and (scale * bare_w > area_w_mm or scale * bare_h > area_h_mm)):
+        final = k == len(ISO_5455_SCALES) - 1
+        if not final and (scale * bare_w > area_w_mm or scale * bare_h > area_h_mm):
             continue  # the bare views alone are too big: no need to lay it out
-        ents, box = _groups(part, scale, text_h, projection, decimal_comma)
-        last = (scale, f"{num}:{den}", ents, box)
-        if (box[2] - box[0] <= area_w_mm - 2 * AREA_PAD_MM
-                and box[3] - box[1] <= area_h_mm - 2 * AREA_PAD_MM):
-            return last
-    assert last is not None
-    return last
+        main = annotate.main_start(part, scale, text_h=text_h, decimal_comma=decimal_comma)
+        side = annotate.side_start(part, scale, text_h=text_h, decimal_comma=decimal_comma)
+        least_w, least_h = _least_size(main, side, text_h)
+        if not final and (least_w > room_w + SURE_MM or least_h > room_h + SURE_MM):
+            continue  # the dimensions alone overflow: the finished views would too
+        done = _finish(main, side, text_h, projection, None if final else (room_w, room_h))
+        if done is None:
+            continue  # a callout stage already overflowed: the finished views would too
+        ents, box = done
+        if final or (box[2] - box[0] <= room_w and box[3] - box[1] <= room_h):
+            return scale, f"{num}:{den}", ents, box
+    raise AssertionError("the last ISO 5455 scale is always laid out")
 
 
 def _title_values(part: Part, info: DocumentInfo, t: SheetTemplate, scale_text: str) -> dict[str, str]:

@@ -2,13 +2,25 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
+from typing import Any, NamedTuple
 
-from prismfab.drawing.geom import Rect, box_hits_segment, boxes_overlap
+from prismfab.drawing.geom import Rect, box_hits_segment
 
 __all__ = ["Placer"]
 
 P2 = tuple[float, float]
+NEAR_MM = 1e-6  # margin of the bounding-box pre-check, far above rounding of paper mm
+
+
+class _Arrays(NamedTuple):
+    """The placer's obstacles as numpy arrays (for the ``*_many`` screens)."""
+
+    key: tuple[int, int, int]  # counts of boxes, segments, regions when built
+    boxes: Any  # (B, 4) x0, y0, x1, y1
+    segments: Any  # (S, 4) px, py, qx, qy
+    reach: Any  # (S, 4) segment bounding boxes grown by NEAR_MM
+    edges: tuple[Any, ...]  # per region: (N, 4) edges
 
 
 class Placer:
@@ -23,6 +35,10 @@ class Placer:
         self.boxes: list[Rect] = []
         self.segments: list[tuple[P2, P2]] = []
         self.regions: list[tuple[P2, ...]] = []
+        # Bounding boxes of the segments (same order), grown by NEAR_MM: a box or segment clear
+        # of one by more than that cannot touch its segment, so the exact test is skipped.
+        self._reach: list[Rect] = []
+        self._cache: _Arrays | None = None
 
     def add_region(self, polygon: Iterable[P2]) -> None:
         """A view outline: text may not stand inside it unless asked to."""
@@ -33,6 +49,17 @@ class Placer:
 
     def add_segment(self, p: P2, q: P2) -> None:
         self.segments.append((p, q))
+        self._reach.append((min(p[0], q[0]) - NEAR_MM, min(p[1], q[1]) - NEAR_MM,
+                            max(p[0], q[0]) + NEAR_MM, max(p[1], q[1]) + NEAR_MM))
+
+    def near_segments(self, box: Rect) -> list[tuple[P2, P2]]:
+        """The segments whose bounding box comes within ``NEAR_MM`` of the box (paper mm).
+
+        Every segment that touches or crosses the box is among them.
+        """
+        x0, y0, x1, y1 = box
+        return [s for s, r in zip(self.segments, self._reach, strict=True)
+                if r[0] <= x1 and x0 <= r[2] and r[1] <= y1 and y0 <= r[3]]
 
     def add_path(self, points: Iterable[P2], *, closed: bool = False) -> None:
         pts = list(points)
@@ -57,9 +84,17 @@ class Placer:
             return None
         return min(xs), min(ys), max(xs), max(ys)
 
+    def hits_box(self, p: P2, q: P2) -> bool:
+        """True when segment p-q touches or crosses a text box already placed."""
+        x0, y0 = min(p[0], q[0]) - NEAR_MM, min(p[1], q[1]) - NEAR_MM
+        x1, y1 = max(p[0], q[0]) + NEAR_MM, max(p[1], q[1]) + NEAR_MM
+        return any(box_hits_segment(b, p, q) for b in self.boxes
+                   if b[0] <= x1 and x0 <= b[2] and b[1] <= y1 and y0 <= b[3])
+
     def crosses_segments(self, p: P2, q: P2) -> bool:
         """True when segment p-q properly crosses a line already placed."""
-        return any(_segments_cross(p, q, a, b) for a, b in self.segments)
+        span = (min(p[0], q[0]), min(p[1], q[1]), max(p[0], q[0]), max(p[1], q[1]))
+        return any(_segments_cross(p, q, a, b) for a, b in self.near_segments(span))
 
     def in_region(self, p: P2) -> bool:
         """True when the point lies inside a view outline."""
@@ -105,6 +140,82 @@ class Placer:
 
         return [(at(a), at(b)) for a, b in pieces if (b - a) * length >= 1.0]
 
+    def _arrays(self) -> _Arrays:
+        """Boxes, segments (and their reach) and region edges as arrays, rebuilt on change."""
+        import numpy as np
+
+        from prismfab.drawing.screen import polygon_edges
+
+        key = (len(self.boxes), len(self.segments), len(self.regions))
+        if self._cache is None or self._cache.key != key:
+            self._cache = _Arrays(
+                key, np.array(self.boxes, dtype=float).reshape(-1, 4),
+                np.array([(*p, *q) for p, q in self.segments], dtype=float).reshape(-1, 4),
+                np.array(self._reach, dtype=float).reshape(-1, 4),
+                tuple(polygon_edges(r) for r in self.regions))
+        return self._cache
+
+    def free_many(self, boxes: Sequence[Rect] | Any) -> list[bool]:
+        """``free(box)`` for many boxes (a sequence or an (N, 4) array) at once: same answers."""
+        import numpy as np
+
+        from prismfab.drawing.screen import boxes_hit_segments, points_in_polygon
+
+        if len(boxes) == 0:
+            return []
+        arrays = self._arrays()
+        placed, segs = arrays.boxes, arrays.segments
+        b = np.array(boxes, dtype=float)
+        x0, y0, x1, y1 = b[:, 0], b[:, 1], b[:, 2], b[:, 3]
+        ax0, ay0, ax1, ay1 = self.area
+        ok = (x0 >= ax0) & (y0 >= ay0) & (x1 <= ax1) & (y1 <= ay1)
+        cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+        for r in self.regions:
+            ok &= ~points_in_polygon(r, cx, cy)
+        if len(placed):
+            ok &= ~((x0[:, None] < placed[:, 2]) & (placed[:, 0] < x1[:, None])
+                    & (y0[:, None] < placed[:, 3]) & (placed[:, 1] < y1[:, None])).any(axis=1)
+        if len(segs):
+            ok &= ~boxes_hit_segments(b, segs, arrays.reach).any(axis=1)
+        return [bool(v) for v in ok]
+
+    def legs_clear(self, legs: Sequence[tuple[P2, P2]], *, cross_views: bool) -> list[bool]:
+        """For each segment: it touches no text box, crosses no line, and (unless
+        ``cross_views``) neither starts or ends in a view nor crosses one (see ``hits_box``,
+        ``crosses_segments``, ``crosses_region``)."""
+        import numpy as np
+
+        from prismfab.drawing.screen import boxes_hit_segments, points_in_polygon, segments_cross
+
+        if not legs:
+            return []
+        arrays = self._arrays()
+        placed, segs, edges = arrays.boxes, arrays.segments, arrays.edges
+        a = np.array([(*p, *q) for p, q in legs], dtype=float)
+        bad = np.zeros(len(legs), dtype=bool)
+        if len(placed):
+            bad |= boxes_hit_segments(placed, a).any(axis=0)
+        if len(segs):
+            bad |= segments_cross(a, segs).any(axis=1)
+        if not cross_views:
+            for r, e in zip(self.regions, edges, strict=True):
+                bad |= points_in_polygon(r, a[:, 0], a[:, 1])
+                bad |= points_in_polygon(r, a[:, 2], a[:, 3])
+                bad |= segments_cross(a, e).any(axis=1)
+        return [not v for v in bad]
+
+    def crosses_many(self, segments: Sequence[tuple[P2, P2]]) -> list[bool]:
+        """``crosses_segments(p, q)`` for many segments at once."""
+        import numpy as np
+
+        from prismfab.drawing.screen import segments_cross
+
+        segs = self._arrays().segments
+        if not segments or not len(segs):
+            return [False] * len(segments)
+        a = np.array([(*p, *q) for p, q in segments], dtype=float)
+        return [bool(v) for v in segments_cross(a, segs).any(axis=1)]
+
     def inside(self, box: Rect) -> bool:
         x0, y0, x1, y1 = self.area
         return box[0] >= x0 and box[1] >= y0 and box[2] <= x1 and box[3] <= y1
@@ -117,9 +228,11 @@ class Placer:
             centre = ((box[0] + box[2]) / 2, (box[1] + box[3]) / 2)
             if any(_contains(r, centre) for r in self.regions):
                 return False
-        if any(boxes_overlap(box, b) for b in self.boxes):
+        x0, y0, x1, y1 = box  # boxes_overlap, inline: this runs for every trial spot
+        if any(x0 < b[2] and b[0] < x1 and y0 < b[3] and b[1] < y1 for b in self.boxes):
             return False
-        return ignore_segments or not any(box_hits_segment(box, p, q) for p, q in self.segments)
+        return ignore_segments or not any(box_hits_segment(box, p, q)
+                                          for p, q in self.near_segments(box))
 
 
 def _clip(box: Rect, p: P2, q: P2) -> tuple[float, float] | None:

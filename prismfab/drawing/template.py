@@ -9,6 +9,7 @@ table" and ``height: 0`` means "reach up to the face table".
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
@@ -91,8 +92,6 @@ def load_template(name_or_path: str) -> SheetTemplate:
     Raises:
         SpecError: the template is unknown or a field is missing or wrong.
     """
-    import yaml
-
     path = Path(name_or_path)
     if not (path.suffix in (".yaml", ".yml") and path.is_file()):
         found = [d / f"{name_or_path}.yaml" for d in template_dirs() if (d / f"{name_or_path}.yaml").is_file()]
@@ -102,11 +101,24 @@ def load_template(name_or_path: str) -> SheetTemplate:
                             fix=f"use one of {', '.join(known)} or the path of a template YAML file")
         path = found[0]
     try:
-        data = yaml.safe_load(path.read_text(encoding="utf-8"))
-    except (OSError, yaml.YAMLError) as err:
+        stat = path.stat()
+        return _load_file(str(path), stat.st_mtime_ns, stat.st_size)
+    except OSError as err:
         raise SpecError(_PATH, f"file {path} cannot be read ({err})",
                         fix="check the file is valid YAML") from err
-    return _parse(data, str(path))
+
+
+@lru_cache(maxsize=16)
+def _load_file(path: str, mtime_ns: int, size: int) -> SheetTemplate:
+    """Parse a template file once per process and version of the file (mtime and size key it)."""
+    import yaml
+
+    try:
+        data = yaml.safe_load(Path(path).read_text(encoding="utf-8"))
+    except yaml.YAMLError as err:
+        raise SpecError(_PATH, f"file {path} cannot be read ({err})",
+                        fix="check the file is valid YAML") from err
+    return _parse(data, path)
 
 
 def _get(data: Any, key: str, where: str, source: str) -> Any:

@@ -21,6 +21,7 @@ writers; ``real_writers()`` gives the STEP, DXF and PDF writers of prismfab.
 
 from __future__ import annotations
 
+import contextlib
 import datetime as _dt
 import os
 from collections.abc import Callable
@@ -115,6 +116,13 @@ def real_writers() -> Writers:
                    fabrication_sheet=_real_fabrication_sheet, system_report=_real_system_report)
 
 
+def _shared_solids() -> contextlib.AbstractContextManager[None]:
+    """Each part's solid is built once for its STEP file and the assembly."""
+    from prismfab.cad.solid import reuse_solids  # OCP itself loads only when a solid is built
+
+    return reuse_solids()
+
+
 def _default_solve(spec: Any) -> Any:
     from prismfab.pipeline import run
 
@@ -199,7 +207,7 @@ def build(inputs: Inputs, *, out_dir: Path, make_zip: bool = False, writers: Wri
             date=build_date(spec.project.date, today=today), spec_sha256=digest,
             snapshot=record_base, changes=changes, approved_by=spec.project.approved_by)
         target = inside(prefix_dir, record.letter)
-        with Stage(target) as stage:
+        with Stage(target) as stage, _shared_solids():
             try:
                 _write_all(stage.path, inputs, solution, (*records, record),
                            writers or real_writers())
