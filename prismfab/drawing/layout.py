@@ -108,9 +108,14 @@ def choose_scale(part: Part, area_w_mm: float, area_h_mm: float, *, text_h: floa
     return _fit(part, area_w_mm, area_h_mm, text_h, projection, decimal_comma)[:2]  # type: ignore[return-value]
 
 
+LARGER_SHEET = {"a4-landscape": "a3-landscape"}
+"""Built-in sheet to move to when no ISO 5455 scale fits the views on the requested one."""
+
+
 def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projection: str,
-         decimal_comma: bool) -> tuple[float, str, list[Entity], Rect]:
-    """The largest scale whose full layout fits, else the smallest scale's layout.
+         decimal_comma: bool) -> tuple[float, str, list[Entity], Rect, bool]:
+    """The largest scale whose full layout fits, else the smallest scale's layout (and whether
+    it fitted).
 
     A scale is laid out in full (leaders and callouts are the costly part) only when neither the
     bare views nor the views with their dimensions alone already overflow the area.
@@ -134,8 +139,9 @@ def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projecti
         if done is None:
             continue  # a callout stage already overflowed: the finished views would too
         ents, box = done
-        if final or (box[2] - box[0] <= room_w and box[3] - box[1] <= room_h):
-            return scale, f"{num}:{den}", ents, box
+        fits = box[2] - box[0] <= room_w and box[3] - box[1] <= room_h
+        if final or fits:
+            return scale, f"{num}:{den}", ents, box, fits
     raise AssertionError("the last ISO 5455 scale is always laid out")
 
 
@@ -168,15 +174,19 @@ def layout_part(part: Part, info: DocumentInfo, *, template: str = "a3-landscape
     if projection not in ("first-angle", "third-angle"):
         raise SpecError("sheet.projection", f"is {projection!r}",
                         fix="use first-angle or third-angle")
-    t = load_template(template)
+    while True:
+        t = load_template(template)
+        rev, rev_top = revision_table(t, info.revisions)
+        table, table_bottom = tables.face_table(part, t.face_table, text_h=t.text("table"),
+                                                decimal_comma=decimal_comma)
+        vx, vy, vw, vh = _clear_of_marks(t, _area(t.views, rev_top, table_bottom))
+        nx, ny, nw, nh = _clear_of_marks(t, _area(t.notes, rev_top, table_bottom))
+        th = t.text("dimension")
+        scale, scale_text, views, box, fits = _fit(part, vw, vh, th, projection, decimal_comma)
+        if fits or template not in LARGER_SHEET:
+            break
+        template = LARGER_SHEET[template]  # the views do not fit: use the next larger sheet
     out: list[Entity] = list(frame(t))
-    rev, rev_top = revision_table(t, info.revisions)
-    table, table_bottom = tables.face_table(part, t.face_table, text_h=t.text("table"),
-                                            decimal_comma=decimal_comma)
-    vx, vy, vw, vh = _clear_of_marks(t, _area(t.views, rev_top, table_bottom))
-    nx, ny, nw, nh = _clear_of_marks(t, _area(t.notes, rev_top, table_bottom))
-    th = t.text("dimension")
-    scale, scale_text, views, box = _fit(part, vw, vh, th, projection, decimal_comma)
     dx = vx + (vw - (box[2] - box[0])) / 2 - box[0]
     dy = vy + (vh - (box[3] - box[1])) / 2 - box[1]
     out += title_block(t, _title_values(part, info, t, scale_text), projection)

@@ -69,6 +69,8 @@ def _aoi_text(face: PartFace) -> str:
     if face.aoi_deg is None:
         return "-"
     nom, lo, hi = face.aoi_deg
+    if f"{lo:.1f}" == f"{hi:.1f}":
+        return f"{nom:.1f}°"
     return f"{nom:.1f}° ({lo:.1f}° to {hi:.1f}°)"
 
 
