@@ -224,8 +224,7 @@ def test_import_is_light() -> None:
 def test_leg_from_face_width() -> None:
     """Chamfer leg a = w / (2 sin(θ/2)): 0.7071 w at 90°, w at 60°.
 
-    Isosceles triangle with apex θ over base w (plane geometry, from memory); the same values
-    are in shared/reference/stack.md section 2.6.
+    Isosceles triangle with apex θ over base w (plane geometry).
     """
     legs = {b.label: b.leg_mm for b in bevels(equilateral_part())}
     assert legs["A/TOP"] == pytest.approx(0.3 / math.sqrt(2.0), abs=1e-12)
@@ -260,7 +259,7 @@ def test_part_step_reads_back(name: str, tmp_path: Path) -> None:
     assert np.all(corners[:, :2] >= lo - LENGTH_TOL_MM)
     assert np.all(corners[:, :2] <= hi + LENGTH_TOL_MM)
     # where every face of the builder's result is planar, the convex hull of its vertices is an
-    # exact, independent volume (shared/reference/stack.md section 2.3); a curved corner patch
+    # exact, independent volume (planar cuts, checked against a convex hull); a curved corner patch
     # lies inside the hull by less than a leg cubed per corner
     hull = ConvexHull(corners).volume
     if all(f.geomType() == "PLANE" for f in solid.Faces()):
@@ -393,7 +392,7 @@ def test_reused_solids_write_the_same_files(tmp_path: Path) -> None:
 
 def test_chamfer_that_cannot_fit() -> None:
     """5° apex with 0.5 mm bevels on every edge: a DesignCheckError that names the edge."""
-    apex, length = math.radians(5.0), 10.0  # the failing case of stack.md section 2.4
+    apex, length = math.radians(5.0), 10.0  # bevel strips meet along the end face of a 5° apex
     part = make_part("EX-2001-09", [(0.0, 0.0), (length, 0.0),
                                     (length * math.cos(apex), length * math.sin(apex))],
                      [FaceRole.GROUND, FaceRole.EXIT, FaceRole.ENTRY], 10.0, bevel_mm=0.5)

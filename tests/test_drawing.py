@@ -30,18 +30,18 @@ def sheets() -> dict[str, Sheet]:
     return out
 
 
-# ---- ISO 2768-1 general tolerances (fabrication.md section 11, rows 1-12) ---------------------
+# ---- ISO 2768-1 general tolerances (tables as quoted in a secondary source) -------------------------------
 
 @pytest.mark.parametrize(("nominal", "cls", "expected"), [
-    (20.0, "m", 0.2),   # ISO 2768-1:1989 Table 1 (check value 1)
-    (20.0, "f", 0.1),   # ISO 2768-1 Table 1 (check value 2)
-    (20.0, "c", 0.5),   # ISO 2768-1 Table 1 (check value 3)
-    (20.0, "v", 1.0),   # ISO 2768-1 Table 1 (check value 4)
-    (30.0, "m", 0.2),   # ISO 2768-1 Table 1, "over 6 up to 30" includes 30 (check value 5)
-    (30.5, "m", 0.3),   # ISO 2768-1 Table 1 (check value 5)
-    (150.0, "m", 0.5),  # ISO 2768-1 Table 1 (check value 6)
-    (2.0, "v", None),   # ISO 2768-1 Table 1: no class v value below 3 mm (check value 7)
-    (2.0, "c", 0.2),    # ISO 2768-1 Table 1: 0.2, not DIN 7168's 0.15 (check value 8)
+    (20.0, "m", 0.2),   # ISO 2768-1:1989 Table 1
+    (20.0, "f", 0.1),   # ISO 2768-1 Table 1
+    (20.0, "c", 0.5),   # ISO 2768-1 Table 1
+    (20.0, "v", 1.0),   # ISO 2768-1 Table 1
+    (30.0, "m", 0.2),   # ISO 2768-1 Table 1, "over 6 up to 30" includes 30
+    (30.5, "m", 0.3),   # ISO 2768-1 Table 1
+    (150.0, "m", 0.5),  # ISO 2768-1 Table 1
+    (2.0, "v", None),   # ISO 2768-1 Table 1: no class v value below 3 mm
+    (2.0, "c", 0.2),    # ISO 2768-1 Table 1: 0.2, not DIN 7168's 0.15
 ])
 def test_iso2768_linear(nominal: float, cls: str, expected: float | None) -> None:
     """Linear general tolerances match ISO 2768-1 Table 1."""
@@ -50,14 +50,14 @@ def test_iso2768_linear(nominal: float, cls: str, expected: float | None) -> Non
 
 def test_iso2768_chamfer_and_angular() -> None:
     """Chamfer heights (Table 2) and angles by shorter leg (Table 3) match ISO 2768-1."""
-    # ISO 2768-1 Table 2, class m (check value 9)
+    # ISO 2768-1 Table 2, class m
     assert [0.2, 0.5, 1.0] == [iso2768.chamfer_tolerance_mm(h, "m") for h in (2.0, 5.0, 10.0)]
-    # ISO 2768-1 Table 3, class m, shorter leg 25 mm: 0°30' (check value 10)
+    # ISO 2768-1 Table 3, class m, shorter leg 25 mm: 0°30'
     assert 30.0 == iso2768.angular_tolerance_arcmin(25.0, "m")
-    # ISO 2768-1 Table 3, class m: 1°, 0°20', 0°10', 0°5' (check value 11)
+    # ISO 2768-1 Table 3, class m: 1°, 0°20', 0°10', 0°5'
     assert [60.0, 20.0, 10.0, 5.0] == [iso2768.angular_tolerance_arcmin(x, "m")
                                        for x in (8.0, 100.0, 200.0, 500.0)]
-    # ISO 2768-1 Table 3, classes c and v at 8 mm: 1°30', 3° (check value 12)
+    # ISO 2768-1 Table 3, classes c and v at 8 mm: 1°30', 3°
     assert (90.0, 180.0) == (iso2768.angular_tolerance_arcmin(8.0, "c"),
                              iso2768.angular_tolerance_arcmin(8.0, "v"))
     with pytest.raises(SpecError, match="ISO 2768-1"):
@@ -83,17 +83,17 @@ def test_angle_text_rounds_from_the_design_value() -> None:
 def test_sheet_sizes_and_frames() -> None:
     """A3/A4 sizes (ISO 216) and the 20/10 mm bordered frame (ISO 5457)."""
     a3, a4 = load_template("a3-landscape"), load_template("a4-landscape")
-    assert (420.0, 297.0) == (a3.width_mm, a3.height_mm)  # ISO 216 A3 (check value 13)
-    assert (297.0, 210.0) == (a4.width_mm, a4.height_mm)  # ISO 216 A4 (check value 13)
-    assert (390.0, 277.0) == a3.frame_box[2:]  # ISO 5457:1999 frame on A3 landscape (check value 14)
+    assert (420.0, 297.0) == (a3.width_mm, a3.height_mm)  # ISO 216 A3
+    assert (297.0, 210.0) == (a4.width_mm, a4.height_mm)  # ISO 216 A4
+    assert (390.0, 277.0) == a3.frame_box[2:]  # ISO 5457:1999 frame on A3 landscape
     assert (20.0, 10.0, 10.0, 10.0) == (a3.border_left_mm, a3.border_right_mm, a3.border_top_mm,
                                         a3.border_bottom_mm)  # ISO 5457 borders, from memory
-    assert 180.0 == a3.title_width_mm == a4.title_width_mm  # ISO 7200 block width (check value 19)
+    assert 180.0 == a3.title_width_mm == a4.title_width_mm  # ISO 7200 block width
 
 
 @pytest.mark.parametrize(("name", "long_side", "short_side"), [
-    ("a3-landscape", 8, 6),  # ISO 5457:1999 grid, A3 (check value 15)
-    ("a4-landscape", 6, 4),  # ISO 5457:1999 grid, A4 (check value 15)
+    ("a3-landscape", 8, 6),  # ISO 5457:1999 grid, A3
+    ("a4-landscape", 6, 4),  # ISO 5457:1999 grid, A4
 ])
 def test_grid_zone_counts(name: str, long_side: int, short_side: int) -> None:
     """50 mm grid fields counted from the centring lines give the ISO 5457 field counts."""
@@ -105,14 +105,14 @@ def test_grid_zone_counts(name: str, long_side: int, short_side: int) -> None:
 
 
 def test_grid_letters_skip_i_and_o() -> None:
-    """Eight rows are A to H; a ninth would be J (ISO 5457, check value 16)."""
+    """Eight rows are A to H; a ninth would be J (ISO 5457)."""
     assert ("A", "B", "C", "D", "E", "F", "G", "H") == grid_letters(8)
     assert "J" == grid_letters(9)[-1]
     assert "O" not in grid_letters(20)
 
 
 def test_title_block_has_the_iso7200_mandatory_fields(sheets: dict[str, Sheet]) -> None:
-    """The 8 mandatory ISO 7200 fields are labelled and filled (check value 17)."""
+    """The 8 mandatory ISO 7200 fields are labelled and filled."""
     texts = set(sheets["brewster"].texts())
     mandatory = {"Legal owner": "Example Optics Lab", "Identification number": "EX-1001-01",
                  "Date of issue": "2026-12-01", "Sheet": "1/2", "Title": "Brewster expander prism",
@@ -141,7 +141,7 @@ def test_general_notes(sheets: dict[str, Sheet]) -> None:
         assert phrase in text, phrase
 
 
-# ISO 10110 indications, syntax per fabrication.md section 1 (parts 2-4 material, 5 form, 7 imperfections)
+# ISO 10110 indications, syntax per ISO 10110 parts 2-4 (material), 5 (form), 7 (imperfections)
 ISO_10110 = {
     "ISO 10110-5 surface form": re.compile(r"^3/ ?(\d+(\.\d+)?|-)\((\d+(\.\d+)?)(/\d+(\.\d+)?)?\); λ = \d+(\.\d+)? nm$"),
     "ISO 10110-7 surface imperfections": re.compile(
@@ -446,7 +446,7 @@ def _on_line(p: tuple[float, float], a: tuple[float, float], b: tuple[float, flo
 def test_apex_flat_angle_at_the_virtual_corner(sheets: dict[str, Sheet], tmp_path: Path) -> None:
     """The angle across an apex flat is dimensioned at the faces' theoretical sharp corner.
 
-    ISO 129-1 practice (fabrication.md section 1.8 and 5.2): the two faces are extended by thin
+    ISO 129-1 practice: the two faces are extended by thin
     lines to the sharp corner and the functional angle carries its tolerance there.
     """
     import ezdxf
@@ -611,7 +611,7 @@ def test_bevels_drawn_where_they_show(sheets: dict[str, Sheet]) -> None:
 def test_perpendicularity_frame_value() -> None:
     """⊥ zone for a 20 mm high face and 1′ pyramidal error: 20 mm × tan 1′ = 5.8 µm.
 
-    fabrication.md section 1.8: "across a 20 mm face 1′ ≈ 5.8 µm" (derived).
+    Derived: 1′ = 0.2909 mrad, so across a 20 mm face 1′ ≈ 5.8 µm.
     """
     from prismfab.drawing.annotate import perpendicularity_zone_mm
 

@@ -366,7 +366,7 @@ def demo_build(tmp_path_factory: pytest.TempPathFactory):  # type: ignore[no-unt
 @pytest.mark.slow
 def test_demo_package_real_writers(demo_build) -> None:  # type: ignore[no-untyped-def]
     """The demo spec builds with the real writers; files read back; the rebuild is identical
-    wherever the libraries allow (all files, per shared/reference/stack.md sections 3.2, 5.5, 6.3)."""
+    wherever the libraries allow (all files: fixed STEP header and ids, fixed DXF metadata, PDF invariant mode)."""
     import ezdxf
     from pypdf import PdfReader
 

@@ -20,8 +20,7 @@ from tests.fixtures import sample_part, sample_solution
 
 
 def test_letters_skip_the_six_excluded_letters() -> None:
-    """Single letters run A..Y without I, O, Q, S, X, Z (ASME Y14.35 convention, from
-    shared/reference/fabrication.md section 6, tagged there as not yet checked against the text)."""
+    """Single letters run A..Y without I, O, Q, S, X, Z (ASME Y14.35 convention, from memory)."""
     singles = [letter_at(i) for i in range(20)]
     assert "".join(singles) == "ABCDEFGHJKLMNPRTUVWY"
     assert not set("IOQSXZ") & set("".join(letter_at(i) for i in range(2000)))

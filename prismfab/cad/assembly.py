@@ -13,7 +13,7 @@ product (its part solid in the part frame, with named faces) placed by its ``Pos
 
 Determinism: the OCCT STEP writer orders the styled items of colours on more than one product
 from pointer-keyed maps, so an assembly with several coloured parts changes its bytes from run to
-run (shared/reference/stack.md section 3.3; measured again here: two prisms with face colours
+run (measured here: two prisms with face colours
 gave 4 different files in 6 processes, the beam alone coloured gave 1 in 3). Only the chief ray is coloured here (red),
 prisms and plate carry names and face names but no colours; that keeps the file byte-identical
 across runs. Coloured single parts are in the part STEP files.

@@ -1,7 +1,7 @@
 """The request-for-quote summary: one row per part, as CSV and as JSON.
 
 Content follows what an optics shop needs to quote beyond the drawing
-(shared/reference/fabrication.md section 6, common practice): identification (part number,
+(common practice of optics shops' quote requests): identification (part number,
 revision, title), quantity, material, overall size, the tolerances that drive the price
 (angles, pyramidal error, lengths, surface form, surface imperfections), coatings per face, the
 documents that make up the part's definition, and which document governs. The JSON adds the
