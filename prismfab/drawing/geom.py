@@ -8,12 +8,13 @@ from collections.abc import Sequence
 from prismfab.drawing import fonts
 
 __all__ = [
-    "add", "box_hits_segment", "boxes_overlap", "dist", "mul", "norm", "perp_cw", "rect_of_text",
+    "add", "box_hits_segment", "boxes_overlap", "clip_segment", "dist", "mul", "norm", "perp_cw", "rect_of_text",
     "sub", "text_width_mm", "unit",
 ]
 
 P2 = tuple[float, float]
 Rect = tuple[float, float, float, float]  # x0, y0, x1, y1
+
 
 def add(a: P2, b: P2) -> P2:
     return a[0] + b[0], a[1] + b[1]
@@ -61,15 +62,16 @@ def boxes_overlap(a: Rect, b: Rect) -> bool:
     return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
 
 
-def box_hits_segment(box: Rect, p: P2, q: P2) -> bool:
-    """True when segment p-q crosses or lies in the axis-aligned box (Liang-Barsky clip)."""
+def clip_segment(box: Rect, p: P2, q: P2) -> tuple[float, float] | None:
+    """Parameter span (t0, t1) of segment p-q inside the axis-aligned box (Liang-Barsky), or
+    None when the segment misses it."""
     x0, y0, x1, y1 = box
     dx, dy = q[0] - p[0], q[1] - p[1]
     t0, t1 = 0.0, 1.0
     for pk, qk in ((-dx, p[0] - x0), (dx, x1 - p[0]), (-dy, p[1] - y0), (dy, y1 - p[1])):
         if abs(pk) < 1e-12:
             if qk < 0:
-                return False
+                return None
             continue
         t = qk / pk
         if pk < 0:
@@ -77,8 +79,13 @@ def box_hits_segment(box: Rect, p: P2, q: P2) -> bool:
         else:
             t1 = min(t1, t)
         if t0 > t1:
-            return False
-    return True
+            return None
+    return t0, t1
+
+
+def box_hits_segment(box: Rect, p: P2, q: P2) -> bool:
+    """True when segment p-q crosses or lies in the axis-aligned box."""
+    return clip_segment(box, p, q) is not None
 
 
 def polygon_centroid(points: Sequence[P2]) -> P2:

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterable, Sequence
 from typing import Any, NamedTuple
 
-from prismfab.drawing.geom import Rect, box_hits_segment
+from prismfab.drawing.geom import Rect, box_hits_segment, clip_segment
 
 __all__ = ["Placer"]
 
@@ -123,7 +123,7 @@ class Placer:
         blocked = []
         for b in self.boxes:
             grown = (b[0] - gap_mm, b[1] - gap_mm, b[2] + gap_mm, b[3] + gap_mm)
-            span = _clip(grown, p, q)
+            span = clip_segment(grown, p, q)
             if span is not None:
                 blocked.append(span)
         pieces: list[tuple[float, float]] = []
@@ -233,26 +233,6 @@ class Placer:
             return False
         return ignore_segments or not any(box_hits_segment(box, p, q)
                                           for p, q in self.near_segments(box))
-
-
-def _clip(box: Rect, p: P2, q: P2) -> tuple[float, float] | None:
-    """Parameter span of segment p-q inside the box (Liang-Barsky), or None."""
-    x0, y0, x1, y1 = box
-    dx, dy = q[0] - p[0], q[1] - p[1]
-    t0, t1 = 0.0, 1.0
-    for pk, qk in ((-dx, p[0] - x0), (dx, x1 - p[0]), (-dy, p[1] - y0), (dy, y1 - p[1])):
-        if abs(pk) < 1e-12:
-            if qk < 0:
-                return None
-            continue
-        t = qk / pk
-        if pk < 0:
-            t0 = max(t0, t)
-        else:
-            t1 = min(t1, t)
-        if t0 > t1:
-            return None
-    return t0, t1
 
 
 def _contains(polygon: tuple[P2, ...], p: P2) -> bool:
