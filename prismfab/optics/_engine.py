@@ -185,7 +185,7 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
     if len(gone) == n or k == max_events:
         if len(gone) < n:
             r.finish(out, ~_mask(n, gone), STATUS_TRAPPED, k)
-        if ev is not None and created:
+        if ev is not None and created and out.history:
             out.events.pop()
         return False
     if ev is None:

@@ -86,12 +86,15 @@ def _keep_basis(r: Rays, ts: Scalar, tp: Scalar) -> None:
     cos_a += np.multiply(u[1], u[1], out=tmp)
     cos_a += np.multiply(u[2], u[2], out=tmp)
     jones = []
-    for a, b in r.jones:
-        es, ep = a * cos_a, b * cos_a
+    for m, (a, b) in enumerate(r.jones):
+        dt_a = np.result_type(a, cos_a, ts)
+        dt_b = np.result_type(b, cos_a, tp)
+        es = np.multiply(a, cos_a, out=pool.fresh(f"a{m}", a, n=n, dtype=dt_a))
+        ep = np.multiply(b, cos_a, out=pool.fresh(f"b{m}", b, n=n, dtype=dt_b))
         if not (isinstance(ts, float) and ts == 1.0):
-            es = es * ts
+            es *= ts
         if not (isinstance(tp, float) and tp == 1.0):
-            ep = ep * tp
+            ep *= tp
         jones.append((es, ep))
     r.jones = jones
 

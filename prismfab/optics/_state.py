@@ -18,10 +18,16 @@ EventArrays = tuple[NDArray[np.int16], NDArray[np.int16], NDArray[np.int8], F64,
 
 
 class Out:
-    """Result arrays of a whole trace, filled chunk by chunk."""
+    """Result arrays of a whole trace (or of one chunk), filled chunk by chunk.
 
-    def __init__(self, n: int, polarized: bool) -> None:
+    ``history=False`` (the ``record="final"`` mode): the event arrays are scratch rows that
+    the engine writes hit points and cosines into and nobody reads; they are kept (never popped)
+    so one chunk-sized ``Out`` serves every chunk without allocating again.
+    """
+
+    def __init__(self, n: int, polarized: bool, *, history: bool = True) -> None:
         self.n = n
+        self.history = history
         self.o = np.zeros((3, n))
         self.d = np.zeros((3, n))
         self.status = np.zeros(n, np.int8)
@@ -39,6 +45,18 @@ class Out:
                 np.zeros(self.n, np.int8), np.zeros((3, self.n)), np.zeros(self.n),
             ))
         return self.events[k]
+
+    def copy_final(self, src: Out, start: int, count: int) -> None:
+        """Copy the final state of rays ``0..count`` of the chunk result ``src`` to ``start``."""
+        sl, dst = slice(0, count), slice(start, start + count)
+        self.o[:, dst] = src.o[:, sl]
+        self.d[:, dst] = src.d[:, sl]
+        self.status[dst] = src.status[sl]
+        self.power[dst] = src.power[sl]
+        self.opl[dst] = src.opl[sl]
+        self.n_events[dst] = src.n_events[sl]
+        if self.fields is not None and src.fields is not None:
+            self.fields[:, dst] = src.fields[:, sl]
 
 
 def basis_rows(d: F64, out: F64 | None = None) -> F64:
@@ -82,8 +100,11 @@ class Rays:
 
     @classmethod
     def start(cls, origins: F64, directions: F64, fields: NDArray[np.complex128] | None, sl: slice,
-              nglass: F64, reflect_at: I64 | None, pool: Pool | None = None) -> Rays:
-        """State of bundle rows ``sl`` before their first event (``pool``: work rows to reuse)."""
+              nglass: F64, reflect_at: I64 | None, pool: Pool | None = None, *, local: bool = False) -> Rays:
+        """State of bundle rows ``sl`` before their first event (``pool``: work rows to reuse).
+
+        ``local``: number the rays from 0 (their results go to a chunk-sized ``Out``).
+        """
         n = sl.stop - sl.start
         pool = Pool(n) if pool is None else pool
         o = pool.get("o", 3, n)
@@ -118,7 +139,8 @@ class Rays:
         last.fill(-1)
         opl = pool.get("opl", n=n)
         opl.fill(0.0)
-        return cls(ids=sl, o=o, d=d, u=u, jones=jones, medium=medium, last=last, opl=opl,
+        ids = slice(0, n) if local else sl
+        return cls(ids=ids, o=o, d=d, u=u, jones=jones, medium=medium, last=last, opl=opl,
                    nglass=nglass, reflect_at=reflect_at, pool=pool)
 
     @property
@@ -192,7 +214,10 @@ class Rays:
             if np.iscomplexobj(a) or np.iscomplexobj(b) or not isinstance(ids, slice):
                 out.fields[:, ids] = a[s] * u + b[s] * v
             else:  # write the real part in place (the imaginary part stays zero)
-                target = out.fields[:, ids].real
+                view = out.fields[:, ids]
+                if not out.history:  # a reused chunk result: clear an earlier chunk's phase
+                    view.imag[...] = 0.0
+                target = view.real
                 for i in range(3):
                     np.multiply(a, u[i], out=target[i])
                     target[i] += b * v[i]

@@ -64,6 +64,9 @@ F64 = NDArray[np.float64]
 CHUNK_SIZE = 32768
 """Default rays per chunk: the working rows of a chunk stay in the core's cache."""
 
+RECORD_MODES = ("full", "final")
+"""``trace(record=...)``: the event history of every ray, or only the final state of each ray."""
+
 
 def default_index_of(material: str, wavelengths_nm: F64) -> ArrayLike:
     """Index from the shipped material catalogue (``prismfab.materials.get(key).n``)."""
@@ -203,6 +206,9 @@ class TraceResult:
         weights: the input weights, (N,).
         event_arrays: per event k, (prism, face, kind, points (3, N), cos_incidence) arrays of
             length N; prism = -1 where a ray had no event k. Use the ``event_*`` properties.
+            Empty when traced with ``record="final"`` (the ``event_*`` properties are then
+            (N, 0)); ``n_events`` and ``interactions`` are kept in both modes.
+        record: the result mode the trace ran in, ``"full"`` or ``"final"``.
     """
 
     solids: tuple[ConvexSolid, ...]
@@ -215,6 +221,7 @@ class TraceResult:
     n_events: NDArray[np.int16]
     weights: F64
     event_arrays: tuple[tuple[NDArray[np.int16], NDArray[np.int16], NDArray[np.int8], F64, F64], ...]
+    record: str = "full"
 
     @property
     def event_prism(self) -> NDArray[np.int16]:
@@ -264,6 +271,7 @@ class TraceResult:
 def trace(
     system: System, rays: RayBundle, *, max_events: int = 16, index_of: IndexFunction | None = None,
     reflect_at_event: ArrayLike | None = None, chunk_size: int = CHUNK_SIZE, predict: bool = True,
+    record: str = "full",
 ) -> TraceResult:
     """Trace a ray bundle through the prisms of ``system``.
 
@@ -279,12 +287,25 @@ def trace(
         chunk_size: rays per numpy block (memory/cache trade-off only; results do not depend on it).
         predict: False sends every ray through the full next-face search (a check of the
             prediction; the results are bit-identical either way).
+        record: ``"full"`` keeps the event history of every ray (prism, face, kind, hit point
+            and angle of incidence per event: what measurement, ghost and sizing code read);
+            ``"final"`` keeps only the final state (points, directions, status, transmitted
+            power, fields, optical path, event count). The physics is the same in both modes
+            (next-face search, Snell, total internal reflection, absorption, Fresnel or coating
+            amplitudes with the s/p basis rotated per face), and so are the final arrays, bit for
+            bit; ``"final"`` works in chunk-sized buffers reused from chunk to chunk, so its
+            memory does not grow with the number of events.
 
     Returns:
-        The final state of every ray and its event history.
+        The final state of every ray and (``record="full"``) its event history.
+
+    Raises:
+        ValueError: ``chunk_size`` < 1 or an unknown ``record``.
     """
     if chunk_size < 1:
         raise ValueError(f"trace: chunk_size must be >= 1, got {chunk_size}")
+    if record not in RECORD_MODES:
+        raise ValueError(f"trace: record must be one of {RECORD_MODES}, got {record!r}")
     index_of = catalogue_index(system.materials_file) if index_of is None else index_of
     solids = tuple(solid_of(p) for p in system.prisms)
     n = rays.n_rays
@@ -303,6 +324,8 @@ def trace(
                          for s in solids])
         predictor = Predictor(enabled=predict)
         pool = Pool(min(n, chunk_size))
+        light = record == "final"
+        local = Out(min(n, chunk_size), rays.fields is not None, history=False) if light else None
         for start in range(0, n, chunk_size):
             sl = slice(start, min(n, start + chunk_size))
             nglass = ntab
@@ -310,8 +333,12 @@ def trace(
                 inv = inverse[sl]
                 nglass = ntab[:, inv[:1]] if inv.min() == inv.max() else ntab[:, inv]
             chunk = Rays.start(rays.origins, rays.directions, rays.fields, sl, nglass,
-                               None if reflect is None else reflect[sl], pool)
-            run_chunk(tab, chunk, out, max_events, predictor)
+                               None if reflect is None else reflect[sl], pool, local=light)
+            if local is None:
+                run_chunk(tab, chunk, out, max_events, predictor)
+            else:
+                run_chunk(tab, chunk, local, max_events, predictor)
+                out.copy_final(local, start, sl.stop - start)
     elif n:
         Rays.start(rays.origins, rays.directions, rays.fields, slice(0, n), np.ones((0, 1)),
                    None).finish(out, None, STATUS_EXITED, 0)
@@ -321,4 +348,5 @@ def trace(
         fields=None if out.fields is None else _frozen(out.fields.T), opl_mm=_frozen(out.opl),
         n_events=_frozen(out.n_events), weights=rays.weights,
         event_arrays=tuple(tuple(_frozen(a) for a in e) for e in out.events),  # type: ignore[misc]
+        record=record,
     )
