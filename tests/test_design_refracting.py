@@ -406,3 +406,49 @@ def test_dispersing_grid_converges():
                 # mrad/nm = rad/um; the spec's band is 10 nm wide, so the traced value is local
                 assert abs(perf.design.dispersion_rad_per_um) == pytest.approx(
                     facts["angular dispersion"], rel=1e-4)
+
+
+def test_tuning_jacobian_matches_differences():
+    # the exact Jacobian of the tuning residual against central differences (self-consistency)
+    from prismfab.design._pair_tuning import _residual_jac
+
+    pair = (PrismAngles(-1.0, 0.5, 1), PrismAngles(0.9, 0.6, -1))
+    ns, x, h = (1.5, 1.6), [0.01, -0.02], 1e-6
+    _f, jac = _residual_jac(pair, ns, 0.3, x)
+    for k in range(2):
+        up, down = list(x), list(x)
+        up[k] += h
+        down[k] -= h
+        f_up, _ = _residual_jac(pair, ns, 0.3, up)
+        f_down, _ = _residual_jac(pair, ns, 0.3, down)
+        for i in range(2):
+            assert jac[i][k] == pytest.approx((f_up[i] - f_down[i]) / (2 * h), rel=1e-6, abs=1e-9)
+    # the residual is the angle model's: direction and log M of propagate_angles
+    theta, mag, _ev = propagate_angles(0.0, [pair[0].rotated(x[0]), pair[1].rotated(x[1])], ns)
+    assert _f == (math.log(mag) - 0.3, theta)
+
+
+def test_shared_first_prism_trace_equals_whole_trace():
+    # a sequential trace resumed after a separately traced (cached) first prism is the same trace
+    from prismfab.design import sizing
+    from prismfab.design.common import Section, section_edges, trace_plane
+    from prismfab.model import FaceRole
+
+    roles = (FaceRole.EXIT, FaceRole.GROUND, FaceRole.ENTRY)
+    p1 = np.array([[10.0, -8.0], [14.0, 6.0], [4.0, 6.0]])
+    events = set()
+    for lift_mm, n2 in ((4.0, 1.76), (12.0, 1.76), (12.0, 1.2), (16.0, 1.76)):
+        secs = [Section(p1, roles, 1.51), Section(p1 + np.array([30.0, lift_mm]), roles, n2)]
+        geo = section_edges(secs)
+        for height in (-2.0, 0.0, 1.5, 4.0):
+            for _ in range(2):  # the second pass takes the first prism's trace from the cache
+                got = sizing._sequential_trace(secs, geo, np.array([-50.0, height]), 0.05)
+                want = trace_plane(secs, (-50.0, height), 0.05, sequential=True)
+                assert got.complete == want.complete
+                assert [(h.section, h.face, h.event) for h in got.hits] == \
+                    [(h.section, h.face, h.event) for h in want.hits]
+                assert np.array_equal(np.array(got.points), np.array(want.points))
+                assert np.array_equal(got.direction, want.direction)
+                events |= {(h.section, h.event) for h in got.hits} | {len(got.hits)}
+    # the cases cover a miss, rays through both prisms, and TIR and blocking in the second
+    assert {0, (1, "refract"), (1, "tir"), (1, "blocked")} <= events

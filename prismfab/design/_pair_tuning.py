@@ -25,7 +25,7 @@ from dataclasses import replace
 import numpy as np
 
 from prismfab.design import sizing
-from prismfab.design.common import PrismAngles, newton, polygons_overlap, propagate_angles
+from prismfab.design.common import PrismAngles, polygons_overlap, propagate_angles
 from prismfab.model import Pose, System
 
 __all__ = ["angle_range", "part_range", "rows_over", "tune", "tuned_system"]
@@ -53,17 +53,95 @@ def tune(pair: tuple[PrismAngles, PrismAngles], ns: tuple[float, float], m_targe
     None when Newton fails, an exit face totally reflects, or an angle limit is passed.
     """
     limit = math.radians(max_incidence_deg)
-
-    def residual(x: np.ndarray) -> np.ndarray:
-        pr = [pair[0].rotated(x[0]), pair[1].rotated(x[1])]
-        theta, mag, _ev = propagate_angles(0.0, pr, ns)
-        return np.array([math.log(mag) - math.log(m_target), theta])
-
-    x = newton(residual, x0, max_iter=max_iter)
+    x = _newton_pair(pair, ns, math.log(m_target), [float(v) for v in x0], max_iter=max_iter)
     if x is None:
         return None
     _t, _m, ev = propagate_angles(0.0, [pair[0].rotated(x[0]), pair[1].rotated(x[1])], ns)
     return x if _within_limits(ev, limit) else None
+
+
+def _newton_pair(pair: tuple[PrismAngles, PrismAngles], ns: tuple[float, float],
+                 log_target: float, x0: list[float], *, max_iter: int, tol: float = 1e-13
+                 ) -> np.ndarray | None:
+    """Damped Newton on (log M - log target, output direction) over the two rotations (rad).
+
+    The iteration of ``common.newton`` (same damping, stopping rule and failure cases) with the
+    exact Jacobian of ``_theta_mag``, carried along the trace: one pass per trial point instead of
+    three. None when it does not converge or a trial point cannot be traced from the start.
+    """
+    try:
+        f, jac = _residual_jac(pair, ns, log_target, x0)
+    except ValueError:
+        return None
+    x, f_max = x0, max(abs(f[0]), abs(f[1]))
+    for _ in range(max_iter):
+        if f_max < tol:
+            return np.array(x)
+        (a, b), (c, d) = jac
+        det = a * d - b * c
+        scale = max(abs(a), abs(b), abs(c), abs(d))
+        if scale > 0.0 and abs(det) > 1e-10 * scale * scale:
+            dx = ((-f[0] * d + f[1] * b) / det, (-f[1] * a + f[0] * c) / det)
+        else:  # (nearly) singular: the least-squares step, as common.newton takes
+            try:
+                dx = tuple(np.linalg.lstsq(np.array(jac), -np.array(f), rcond=None)[0].tolist())
+            except np.linalg.LinAlgError:
+                return None
+        lam = 1.0
+        for _ in range(30):
+            try:
+                x_new = [x[0] + lam * dx[0], x[1] + lam * dx[1]]
+                f_new, jac_new = _residual_jac(pair, ns, log_target, x_new)
+                f_new_max = max(abs(f_new[0]), abs(f_new[1]))
+                if f_new_max < f_max or lam < 1e-3:
+                    break
+            except ValueError:
+                pass
+            lam *= 0.5
+        else:
+            return None
+        x, f, jac, f_max = x_new, f_new, jac_new, f_new_max
+    return np.array(x) if f_max < tol * 1e3 else None
+
+
+def _residual_jac(pair: tuple[PrismAngles, PrismAngles], ns: tuple[float, float],
+                  log_target: float, rot_rad: list[float]
+                  ) -> tuple[tuple[float, float], tuple[tuple[float, float], tuple[float, float]]]:
+    """Residual (log M - log target, output direction) of the rotated pair and its Jacobian
+    (rows: residual components; columns: rotation of P1, P2).
+
+    The values are the arithmetic of ``propagate_angles`` on ``PrismAngles.rotated``; the
+    derivatives follow each face's Snell law ``n1 sin i = n2 sin r`` with ``i = theta - N``:
+    ``dr = n1 cos i / (n2 cos r) di`` and ``d ln(cos r / cos i) = tan i di - tan r dr``; turning
+    a prism by ``dx`` turns both its face normals N by ``dx``.
+
+    Raises:
+        ValueError: total internal reflection, or a face met from behind.
+    """
+    theta, mag = 0.0, 1.0
+    dth, dlog = [0.0, 0.0], [0.0, 0.0]
+    half_pi, two_pi = math.pi / 2, 2 * math.pi
+    for j, (pa, n, r) in enumerate(zip(pair, ns, rot_rad, strict=True)):
+        beta = pa.beta_rad + r
+        for normal, n1, n2 in ((beta, 1.0, n), (beta + pa.sense * pa.apex_rad, n, 1.0)):
+            inc = math.remainder(theta - normal, two_pi)
+            s = n1 * math.sin(inc) / n2
+            if abs(s) >= 1.0:
+                raise ValueError("total internal reflection")
+            ref = math.asin(s)
+            if abs(inc) >= half_pi:
+                raise ValueError("the ray meets a face from behind")
+            cos_i, cos_r = math.cos(inc), math.cos(ref)
+            gain = n1 * cos_i / (n2 * cos_r)
+            tan_i, tan_r = math.tan(inc), math.tan(ref)
+            for k in (0, 1):
+                d_inc = dth[k] - (1.0 if k == j else 0.0)
+                d_ref = gain * d_inc
+                dlog[k] += tan_i * d_inc - tan_r * d_ref
+                dth[k] = (1.0 if k == j else 0.0) + d_ref
+            theta = normal + ref
+            mag *= cos_r / cos_i
+    return (math.log(mag) - log_target, theta), ((dlog[0], dlog[1]), (dth[0], dth[1]))
 
 
 def _continue(m0: float, sign: int, step_ok: Callable[[float, np.ndarray], np.ndarray | None],

@@ -54,7 +54,10 @@ __all__ = [
     "reflect",
     "refract",
     "section_in_plane",
+    "resume_plane",
+    "section_edges",
     "trace_plane",
+    "trace_plane_edges",
     "unit",
 ]
 
@@ -204,11 +207,16 @@ def is_convex_ccw(vertices: np.ndarray) -> bool:
 
 def polygons_overlap(a: np.ndarray, b: np.ndarray, *, gap_mm: float = 0.0) -> bool:
     """Separating-axis test for two convex polygons; True if closer than ``gap_mm``."""
-    for poly in (a, b):
+    va, vb = a.tolist(), b.tolist()  # plain floats: a few vertices, called in search loops
+    for poly in (va, vb):
         for i in range(len(poly)):
-            nrm = edge_normal(poly, i)
-            pa, pb = a @ nrm, b @ nrm
-            if pa.max() + gap_mm <= pb.min() or pb.max() + gap_mm <= pa.min():
+            (x0, y0), (x1, y1) = poly[i], poly[(i + 1) % len(poly)]
+            nx, ny = y1 - y0, x0 - x1
+            ln = math.hypot(nx, ny)
+            nx, ny = nx / ln, ny / ln
+            pa = [x * nx + y * ny for x, y in va]
+            pb = [x * nx + y * ny for x, y in vb]
+            if max(pa) + gap_mm <= min(pb) or max(pb) + gap_mm <= min(pa):
                 return False
     return True
 
@@ -361,22 +369,21 @@ def _edges(vertices: np.ndarray) -> list[tuple[float, ...]]:
 
 def _first_hit(px: float, py: float, dx: float, dy: float, edges: list, inside: bool
                ) -> tuple[float, int] | None:
-    best: tuple[float, int] | None = None
-    for i, (ax, ay, ex, ey, nx, ny) in enumerate(edges):
+    best_t, best_i = math.inf, -1
+    i = 0
+    for ax, ay, ex, ey, nx, ny in edges:
         facing = dx * nx + dy * ny
-        if (inside and facing <= 0) or (not inside and facing >= 0):
-            continue
-        den = dx * ey - dy * ex
-        if abs(den) < 1e-15:
-            continue
-        qx, qy = ax - px, ay - py
-        t = (qx * ey - qy * ex) / den
-        u = (qx * dy - qy * dx) / den
-        if t <= _EPS_MM or u < -1e-12 or u > 1 + 1e-12:
-            continue
-        if best is None or t < best[0]:
-            best = (t, i)
-    return best
+        if (facing > 0) if inside else (facing < 0):
+            den = dx * ey - dy * ex
+            if abs(den) >= 1e-15:
+                qx, qy = ax - px, ay - py
+                t = (qx * ey - qy * ex) / den
+                if _EPS_MM < t < best_t:
+                    u = (qx * dy - qy * dx) / den
+                    if -1e-12 <= u <= 1 + 1e-12:
+                        best_t, best_i = t, i
+        i += 1
+    return (best_t, best_i) if best_i >= 0 else None
 
 
 def trace_plane(sections: Sequence[Section], start: Sequence[float], theta_rad: float, *,
@@ -396,21 +403,65 @@ def trace_plane(sections: Sequence[Section], start: Sequence[float], theta_rad: 
         sequential: meet the sections strictly in list order (sizing of partly built systems,
             where a provisional oversize section must not catch rays meant for another).
     """
-    geo = [_edges(sec.vertices) for sec in sections]
+    return trace_plane_edges(sections, [_edges(sec.vertices) for sec in sections], start,
+                             theta_rad, max_events=max_events, lead_out_mm=lead_out_mm,
+                             sequential=sequential)
+
+
+def section_edges(sections: Sequence[Section]) -> list[list[tuple[float, ...]]]:
+    """Per section, the edge data ``trace_plane_edges`` takes (computed once per section set)."""
+    return [_edges(sec.vertices) for sec in sections]
+
+
+def trace_plane_edges(sections: Sequence[Section], geo: list, start: Sequence[float],
+                      theta_rad: float, *, max_events: int = 24, lead_out_mm: float = 20.0,
+                      sequential: bool = False) -> PlanePath:
+    """``trace_plane`` with the sections' edge data (``section_edges``) given, so that many rays
+    through the same sections share it."""
     px, py = float(start[0]), float(start[1])
-    dx, dy = math.cos(theta_rad), math.sin(theta_rad)
-    points, hits = [np.array([px, py])], []
+    return _trace_from(sections, geo, [np.array([px, py])], [], 0,
+                       (px, py, math.cos(theta_rad), math.sin(theta_rad)),
+                       max_events=max_events, lead_out_mm=lead_out_mm, sequential=sequential)
+
+
+def resume_plane(sections: Sequence[Section], geo: list, prefix: PlanePath, *,
+                 max_events: int = 24, lead_out_mm: float = 20.0) -> PlanePath:
+    """Continue a sequential trace whose first section was traced alone (``prefix``).
+
+    ``prefix`` is ``trace_plane_edges(sections[:1], geo[:1], ..., sequential=True)`` of the same
+    ray: where it left section 0 (complete, with hits) the trace goes on through
+    ``sections[1:]`` exactly as one sequential trace through all of them would; otherwise (the ray
+    missed, was blocked or trapped in section 0) ``prefix`` is already the whole trace.
+    """
+    if not (prefix.complete and prefix.hits):
+        return prefix
+    last = prefix.points[-2]  # the exit point of section 0 (the last point is the lead-out)
+    return _trace_from(sections, geo, list(prefix.points[:-1]), list(prefix.hits), 1,
+                       (float(last[0]), float(last[1]), float(prefix.direction[0]),
+                        float(prefix.direction[1])),
+                       max_events=max_events - len(prefix.hits), lead_out_mm=lead_out_mm,
+                       sequential=True)
+
+
+def _trace_from(sections: Sequence[Section], geo: list, points: list, hits: list, next_k: int,
+                ray: tuple[float, float, float, float], *, max_events: int, lead_out_mm: float,
+                sequential: bool) -> PlanePath:
+    """The trace loop from a point outside every section; ``ray`` is (px, py, dx, dy)."""
+    px, py, dx, dy = ray
     inside: int | None = None
-    next_k = 0
     for _ in range(max_events):
         if inside is None:
             best = None
-            for k, edges in enumerate(geo):
-                if sequential and k != next_k:
-                    continue
-                h = _first_hit(px, py, dx, dy, edges, False)
-                if h and (best is None or h[0] < best[0]):
-                    best = (h[0], h[1], k)
+            if sequential:
+                if next_k < len(geo):
+                    h = _first_hit(px, py, dx, dy, geo[next_k], False)
+                    if h is not None:
+                        best = (h[0], h[1], next_k)
+            else:
+                for k, edges in enumerate(geo):
+                    h = _first_hit(px, py, dx, dy, edges, False)
+                    if h and (best is None or h[0] < best[0]):
+                        best = (h[0], h[1], k)
             if best is None:
                 points.append(np.array([px + lead_out_mm * dx, py + lead_out_mm * dy]))
                 return PlanePath(tuple(points), tuple(hits), np.array([dx, dy]), True)
@@ -436,11 +487,12 @@ def trace_plane(sections: Sequence[Section], start: Sequence[float], theta_rad: 
             dx, dy = dx - 2 * c * nx, dy - 2 * c * ny
             hits.append(Hit(k, face, p, along, aoi, "mirror"))
             continue
-        n1, n2 = (1.0, sec.index) if inside is None else (sec.index, 1.0)
+        eta = 1.0 / sec.index if inside is None else sec.index  # n1 / n2
         # vector Snell (Heckbert, in Glassner 1989) with the normal against the ray
-        sx, sy, ci = (-nx, -ny, -c) if c > 0 else (nx, ny, c)
-        cosi = -ci
-        eta = n1 / n2
+        if c > 0:
+            sx, sy, cosi = -nx, -ny, c
+        else:
+            sx, sy, cosi = nx, ny, -c
         kk = 1.0 - eta * eta * (1.0 - cosi * cosi)
         if kk < 0.0:
             dx, dy = dx - 2 * c * nx, dy - 2 * c * ny
@@ -451,9 +503,10 @@ def trace_plane(sections: Sequence[Section], start: Sequence[float], theta_rad: 
         norm = math.hypot(dx, dy)
         dx, dy = dx / norm, dy / norm
         hits.append(Hit(k, face, p, along, aoi, "refract"))
-        if inside is not None:
-            next_k = k + 1
-        inside = k if inside is None else None
+        if inside is None:
+            inside = k
+        else:
+            next_k, inside = k + 1, None
     return PlanePath(tuple(points), tuple(hits), np.array([dx, dy]), False)
 
 
@@ -571,8 +624,9 @@ def newton(residual: Callable[[np.ndarray], np.ndarray], x0: Sequence[float], *,
         f = residual(x)
     except ValueError:
         return None
+    f_max = _max_abs(f)
     for _ in range(max_iter):
-        if float(np.max(np.abs(f))) < tol:
+        if f_max < tol:
             return x
         jac = np.empty((len(f), len(x)))
         try:
@@ -580,22 +634,40 @@ def newton(residual: Callable[[np.ndarray], np.ndarray], x0: Sequence[float], *,
                 xk = x.copy()
                 xk[k] += step_rad
                 jac[:, k] = (residual(xk) - f) / step_rad
-            dx = np.linalg.lstsq(jac, -f, rcond=None)[0]
+            dx = _newton_step(jac, f)
         except (ValueError, np.linalg.LinAlgError):
             return None
         lam = 1.0
         for _ in range(30):
             try:
                 fn = residual(x + lam * dx)
-                if float(np.max(np.abs(fn))) < float(np.max(np.abs(f))) or lam < 1e-3:
+                fn_max = _max_abs(fn)
+                if fn_max < f_max or lam < 1e-3:
                     break
             except ValueError:
                 pass
             lam *= 0.5
         else:
             return None
-        x, f = x + lam * dx, fn
-    return x if float(np.max(np.abs(f))) < tol * 1e3 else None
+        x, f, f_max = x + lam * dx, fn, fn_max
+    return x if f_max < tol * 1e3 else None
+
+
+def _max_abs(f: np.ndarray) -> float:
+    """Largest absolute component (plain floats: the residuals here have a few components)."""
+    return max(abs(v) for v in f.tolist()) if len(f) else 0.0
+
+
+def _newton_step(jac: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """Solve ``jac dx = -f``: closed form for a well-conditioned 2x2, least squares otherwise."""
+    if jac.shape == (2, 2):
+        (a, b), (c, d) = jac.tolist()
+        det = a * d - b * c
+        scale = max(abs(a), abs(b), abs(c), abs(d))
+        if scale > 0.0 and abs(det) > 1e-10 * scale * scale:
+            f0, f1 = f.tolist()
+            return np.array([(-f0 * d + f1 * b) / det, (-f1 * a + f0 * c) / det])
+    return np.linalg.lstsq(jac, -f, rcond=None)[0]
 
 
 def face_coating(spec: Spec, role: FaceRole, *, aoi_max_rad: float = 0.0,

@@ -31,7 +31,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from prismfab.design.common import Hit, Section, edge_normal, polygon_from_lines, trace_plane
+from prismfab.design.common import (
+    Hit,
+    PlanePath,
+    Section,
+    edge_normal,
+    polygon_from_lines,
+    resume_plane,
+    section_edges,
+    trace_plane_edges,
+)
 from prismfab.errors import DesignCheckError
 from prismfab.model import FaceRole
 from prismfab.spec.types import Grade, Spec
@@ -200,15 +209,43 @@ def trace_groups(placed: Sequence[Placed], groups: Sequence[RayGroup], *, sequen
     ``sequential`` meets the prisms in list order (see ``common.trace_plane``).
     """
     out = []
-    cache: dict[tuple[int, float], list[Section]] = {}
+    cache: dict[tuple[int, float], tuple[list[Section], list]] = {}
+    edges: dict[int, list] = {}  # edge data per tuning state (the index does not change it)
     for g in groups:
         key = (g.state, g.wavelength_nm)
         if key not in cache:
-            cache[key] = [p.section(g.state, g.wavelength_nm) for p in placed]
-        secs = cache[key]
-        out.append((g, tuple(trace_plane(secs, start, th, sequential=sequential)
-                              for start, th in g.rays)))
+            secs_ = [p.section(g.state, g.wavelength_nm) for p in placed]
+            if g.state not in edges:
+                edges[g.state] = section_edges(secs_)
+            cache[key] = (secs_, edges[g.state])
+        secs, geo = cache[key]
+        if sequential and len(secs) > 1:
+            out.append((g, tuple(_sequential_trace(secs, geo, start, th) for start, th in g.rays)))
+        else:
+            out.append((g, tuple(trace_plane_edges(secs, geo, start, th, sequential=sequential)
+                                  for start, th in g.rays)))
     return out
+
+
+_PREFIXES: dict[tuple, PlanePath] = {}
+"""Traces through a first section alone, by (section, ray): sizing the second prism of a pair
+traces the same rays through the same, already sized first prism many times over."""
+_PREFIXES_MAX = 4096
+
+
+def _sequential_trace(secs: list[Section], geo: list, start: np.ndarray, theta_rad: float
+                      ) -> PlanePath:
+    """A sequential trace through ``secs``, the part through ``secs[0]`` looked up when known."""
+    first = secs[0]
+    key = (first.vertices.tobytes(), first.roles, first.index, float(start[0]), float(start[1]),
+           theta_rad)
+    prefix = _PREFIXES.get(key)
+    if prefix is None:
+        if len(_PREFIXES) >= _PREFIXES_MAX:
+            _PREFIXES.clear()
+        prefix = trace_plane_edges(secs[:1], geo[:1], start, theta_rad, sequential=True)
+        _PREFIXES[key] = prefix
+    return resume_plane(secs, geo, prefix)
 
 
 def footprints(traced: Sequence[tuple[RayGroup, tuple]], section: int, face: int,
@@ -347,8 +384,10 @@ def size_triangle(
         for k in (0, 1):
             fi = _face_of(verts, t, k)
             d = t.dir1 if k == 0 else t.dir2
+            ax, ay, dx, dy = float(t.apex[0]), float(t.apex[1]), float(d[0]), float(d[1])
             fps = footprints(traced, section, fi,
-                             lambda h, d=d, t=t: float((h.point - t.apex) @ d))
+                             lambda h, ax=ax, ay=ay, dx=dx, dy=dy:
+                             (float(h.point[0]) - ax) * dx + (float(h.point[1]) - ay) * dy)
             complete &= _reached(traced, section, fi)
             cas.append(clear_aperture(fps, margin) if fps else None)
         return cas, complete

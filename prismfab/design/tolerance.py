@@ -16,7 +16,7 @@ from dataclasses import replace
 import numpy as np
 
 from prismfab.design import classes as C
-from prismfab.design.montecarlo import Limits, Linear, draws, linearise, monte_carlo
+from prismfab.design.montecarlo import Limits, Linear, Result, draws, linearise, monte_carlo
 from prismfab.design.report import FaceFormRow, SensitivityRow, ToleranceReport, YieldRow
 from prismfab.design.sensitivity import Model, build_model
 from prismfab.model import FaceRole, Part, System
@@ -152,9 +152,14 @@ def select_classes(model: Model, lin: Linear, ladders, limits: Limits, unit: np.
         looser, where a looser step exists).
     """
     choice = {key: 0 for key in ladders}
+    done: dict[tuple, Result] = {}  # the search revisits class sets: each is run once
 
     def run(ch):  # type: ignore[no-untyped-def]
-        return monte_carlo(lin, _scale(model, lin, ladders, ch), limits, unit, quantile=target)
+        key = tuple(ch[k] for k in ladders)
+        if key not in done:
+            done[key] = monte_carlo(lin, _scale(model, lin, ladders, ch), limits, unit,
+                                    quantile=target)
+        return done[key]
 
     res = run(choice)
     while res.yield_fraction < target:
