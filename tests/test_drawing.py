@@ -499,8 +499,9 @@ def test_template_file_is_read_again_after_an_edit(tmp_path: Path) -> None:
 
 
 def test_chosen_scale_is_the_largest_that_fits() -> None:
-    """The next larger ISO 5455 scale would not fit the view area; text heights do not change."""
-    from prismfab.drawing import layout
+    """The next larger ISO 5455 scale would not fit the view area (or would leave text on text
+    or on the outline); text heights do not change."""
+    from prismfab.drawing import layout, overlap
     from prismfab.drawing.extent import bbox
 
     for part in (sample_part(), fold_prism(), apex_flat_prism()):
@@ -511,9 +512,10 @@ def test_chosen_scale_is_the_largest_that_fits() -> None:
         assert box[3] - box[1] <= 170.0 - 2 * layout.AREA_PAD_MM
         if k > 0:
             num, den = ISO_5455_SCALES[k - 1]
-            _, bigger = layout._groups(part, num / den, 3.5, "first-angle", False)
+            crowded, bigger = layout._groups(part, num / den, 3.5, "first-angle", False)
             assert (bigger[2] - bigger[0] > 200.0 - 2 * layout.AREA_PAD_MM
-                    or bigger[3] - bigger[1] > 170.0 - 2 * layout.AREA_PAD_MM)
+                    or bigger[3] - bigger[1] > 170.0 - 2 * layout.AREA_PAD_MM
+                    or overlap.collisions(crowded, 3.5))  # too big, or text left on text
         assert bbox(ents, 3.5) == box
     # a small part gets an enlargement on A3
     assert layout_part(sample_part(), sample_info()).scale >= 5.0

@@ -88,6 +88,24 @@ def box_hits_segment(box: Rect, p: P2, q: P2) -> bool:
     return clip_segment(box, p, q) is not None
 
 
+def run_on(d1: P2, d2: P2, text_pos: P2, half_w: float) -> tuple[P2, P2] | None:
+    """The piece by which a dimension line d1-d2 runs on under text standing beyond its end.
+
+    Returns None when the text (centre ``text_pos``, half width ``half_w`` along the line,
+    paper mm) stands between the ends.
+    """
+    length = dist(d1, d2)
+    if length < 1e-9:
+        return None
+    u = ((d2[0] - d1[0]) / length, (d2[1] - d1[1]) / length)
+    along = (text_pos[0] - d1[0]) * u[0] + (text_pos[1] - d1[1]) * u[1]
+    if along - half_w < 0.0:
+        return d1, add(d1, mul(u, along - half_w))
+    if along + half_w > length:
+        return d2, add(d1, mul(u, along + half_w))
+    return None
+
+
 def polygon_centroid(points: Sequence[P2]) -> P2:
     """Area centroid of a simple polygon."""
     a = cx = cy = 0.0

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from prismfab.drawing import annotate, tables
+from prismfab.drawing import annotate, overlap, tables
 from prismfab.drawing.extent import bbox, translate, union
 from prismfab.drawing.frame import frame, revision_table, title_block
 from prismfab.drawing.geom import Rect
@@ -28,6 +28,7 @@ ISO_5455_SCALES = ((50, 1), (20, 1), (10, 1), (5, 1), (2, 1), (1, 1), (1, 2), (1
 VIEW_GAP_MM = 6.0  # free paper between the two views' annotations
 AREA_PAD_MM = 1.5  # free paper between the views and the edge of the view area
 SURE_MM = 1e-6  # rounding margin of the early size check (paper mm)
+CROWDED_TRIES = 2  # smaller scales tried after the largest that fits still has text collisions
 
 
 def _groups(part: Part, scale: float, text_h: float, projection: str, decimal_comma: bool
@@ -40,25 +41,29 @@ def _groups(part: Part, scale: float, text_h: float, projection: str, decimal_co
     side = annotate.side_start(part, scale, text_h=text_h, decimal_comma=decimal_comma)
     done = _finish(main, side, text_h, projection)
     assert done is not None  # no room given: always finished
-    return done
+    return done[0], done[1]
 
 
 def _finish(main_started: annotate.Started, side_started: annotate.Started, text_h: float,
             projection: str, room: tuple[float, float] | None = None
-            ) -> tuple[list[Entity], Rect] | None:
-    """Finish both groups and set them side by side; None as soon as they overflow ``room``.
+            ) -> tuple[list[Entity], Rect, int] | None:
+    """Finish both groups, clear their text collisions and set them side by side.
+
+    Returns the entities, their bounding box and the number of text collisions left
+    (``overlap.resolve``); None as soon as the views overflow ``room``.
 
     Args:
         room: the width and height (paper mm) the views must fit, checked after every stage
             of the main view (its bounding box only grows); None to finish regardless.
     """
-    side = annotate.side_finish(side_started)
+    side, side_left = overlap.resolve(annotate.side_finish(side_started), text_h)
     sb = bbox(side, text_h)
     assert sb is not None  # both views always draw an outline
     keep_going = None if room is None else _room_check(main_started, sb, text_h, room)
     main = annotate.main_finish(main_started, keep_going=keep_going)
     if main is None:
         return None
+    main, main_left = overlap.resolve(main, text_h, limit=_room_left(main, sb, text_h, room))
     mb = bbox(main, text_h)
     assert mb is not None and sb is not None  # both views always draw an outline
     # The second view sees the part from +X: first angle puts it left of the section, third right.
@@ -67,7 +72,25 @@ def _finish(main_started: annotate.Started, side_started: annotate.Started, text
     both = main + side
     box = bbox(both, text_h)
     assert box is not None
-    return both, box
+    return both, box, side_left + main_left
+
+
+def _room_left(main: list[Entity], sb: Rect, text_h: float, room: tuple[float, float] | None
+               ) -> Rect | None:
+    """Where the main view may grow while both views still fit ``room`` (None: anywhere).
+
+    The spare width and height may be taken on either side (paper mm, main view frame).
+    """
+    if room is None:
+        return None
+    mb = bbox(main, text_h)
+    assert mb is not None
+    spare_w = room[0] - (mb[2] - mb[0] + VIEW_GAP_MM + sb[2] - sb[0])
+    y0, y1 = min(mb[1], sb[1]), max(mb[3], sb[3])
+    spare_h = room[1] - (y1 - y0)
+    if spare_w < 0 or spare_h < 0:
+        return None  # does not fit anyway
+    return mb[0] - spare_w, y0 - spare_h, mb[2] + spare_w, y1 + spare_h
 
 
 def _room_check(main: annotate.Started, sb: Rect, text_h: float, room: tuple[float, float]
@@ -114,18 +137,24 @@ LARGER_SHEET = {"a4-landscape": "a3-landscape"}
 
 def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projection: str,
          decimal_comma: bool) -> tuple[float, str, list[Entity], Rect, bool]:
-    """The largest scale whose full layout fits, else the smallest scale's layout (and whether
-    it fitted).
+    """The largest scale whose full layout fits with no text collision, and True; else the
+    largest scale that fits with collisions left (or the smallest scale's layout), and False.
 
     A scale is laid out in full (leaders and callouts are the costly part) only when neither the
-    bare views nor the views with their dimensions alone already overflow the area.
+    bare views nor the views with their dimensions alone already overflow the area. Text keeps
+    its size at every scale, so a view too crowded at one scale is tried at no more than
+    ``CROWDED_TRIES`` smaller ones.
     """
     xs = [p[0] for p in part.prism.vertices_mm]
     ys = [p[1] for p in part.prism.vertices_mm]
     bare_w = max(xs) - min(xs) + part.prism.height_mm
     bare_h = max(ys) - min(ys)
     room_w, room_h = area_w_mm - 2 * AREA_PAD_MM, area_h_mm - 2 * AREA_PAD_MM
+    crowded: tuple[float, str, list[Entity], Rect, bool] | None = None
+    tries = 0
     for k, (num, den) in enumerate(ISO_5455_SCALES):
+        if crowded is not None and tries >= CROWDED_TRIES:
+            return crowded
         scale = num / den
         final = k == len(ISO_5455_SCALES) - 1
         if not final and (scale * bare_w > area_w_mm or scale * bare_h > area_h_mm):
@@ -138,10 +167,16 @@ def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projecti
         done = _finish(main, side, text_h, projection, None if final else (room_w, room_h))
         if done is None:
             continue  # a callout stage already overflowed: the finished views would too
-        ents, box = done
+        ents, box, left = done
         fits = box[2] - box[0] <= room_w and box[3] - box[1] <= room_h
-        if final or fits:
-            return scale, f"{num}:{den}", ents, box, fits
+        if fits and left == 0:
+            return scale, f"{num}:{den}", ents, box, True
+        if fits and crowded is None:
+            crowded = (scale, f"{num}:{den}", ents, box, False)
+        if crowded is not None:
+            tries += 1
+        if final:
+            return crowded if crowded is not None else (scale, f"{num}:{den}", ents, box, False)
     raise AssertionError("the last ISO 5455 scale is always laid out")
 
 
@@ -203,7 +238,7 @@ def layout_part(part: Part, info: DocumentInfo, *, template: str = "a3-landscape
         width_mm=t.width_mm, height_mm=t.height_mm, scale=scale, scale_text=scale_text,
         template=t.name, projection=projection, number=info.number or part.number,
         revision=info.revision, title=info.title or part.title, entities=tuple(out),
-        dimension_text_mm=t.text("dimension"),
+        dimension_text_mm=t.text("dimension"), view_entities=len(views),
     )
 
 

@@ -14,7 +14,7 @@ from typing import Any
 
 from prismfab.drawing import fonts
 from prismfab.drawing.dxf import LINETYPE_PATTERNS_MM
-from prismfab.drawing.geom import add, mul, sub, unit
+from prismfab.drawing.geom import add, mul, run_on, sub, text_width_mm, unit
 from prismfab.drawing.sheet import (
     AlignedDim, AngularDim, Arc, Circle, Leader, Line, LinearDim, LineType, Polyline, Sheet, Solid,
     Table, Text, Width, cell_texts, leader_texts,
@@ -125,6 +125,9 @@ def _straight_dim(c: Any, p1: P2, p2: P2, d1: P2, d2: P2, text: str, pos: P2, ro
         c.line(*sub(d1, mul(u, ARROW_MM + 2.0)), *add(d2, mul(u, ARROW_MM + 2.0)))
         _arrow(c, d1, u)
         _arrow(c, d2, mul(u, -1.0))
+    more = run_on(d1, d2, pos, text_width_mm(text, text_h) / 2)
+    if more is not None:  # text beyond an end of its line: the line runs on under it
+        c.line(*more[0], *more[1])
     _text(c, Text(pos, text, text_h, rot, "center", "middle"))
 
 

@@ -7,7 +7,7 @@ from typing import Any, NamedTuple
 
 from prismfab.drawing.geom import Rect, box_hits_segment, clip_segment
 
-__all__ = ["Placer"]
+__all__ = ["Placer", "segments_cross"]
 
 P2 = tuple[float, float]
 NEAR_MM = 1e-6  # margin of the bounding-box pre-check, far above rounding of paper mm
@@ -253,3 +253,8 @@ def _segments_cross(a: P2, b: P2, c: P2, d: P2) -> bool:
         return (q[0] - p[0]) * (r[1] - p[1]) - (q[1] - p[1]) * (r[0] - p[0])
 
     return (orient(a, b, c) * orient(a, b, d) < 0) and (orient(c, d, a) * orient(c, d, b) < 0)
+
+
+def segments_cross(a: P2, b: P2, c: P2, d: P2) -> bool:
+    """True when segments a-b and c-d properly cross (touching ends do not count)."""
+    return _segments_cross(a, b, c, d)

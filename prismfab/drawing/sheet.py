@@ -302,6 +302,7 @@ class Sheet:
         number, revision, title: identification (for file metadata).
         entities: everything drawn, in drawing order.
         dimension_text_mm: the one character height of all dimensions (ISO 129-1).
+        view_entities: how many of the last ``entities`` make up the two views (0: unknown).
     """
 
     width_mm: float
@@ -315,6 +316,7 @@ class Sheet:
     title: str
     entities: tuple[Entity, ...]
     dimension_text_mm: float = 3.5
+    view_entities: int = 0
 
     def of_type(self, kind: type) -> tuple[Entity, ...]:
         """The entities of one kind, in drawing order."""

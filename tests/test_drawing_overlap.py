@@ -1,0 +1,130 @@
+"""Text collisions in the views: the starter parts read cleanly, and the collision pass works."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import pytest
+
+from prismfab.drawing import layout, layout_part, overlap
+from prismfab.drawing.sheet import AlignedDim, AngularDim, Circle, Layer, Polyline, Sheet
+from prismfab.model import Part
+from prismfab.pipeline import run
+from prismfab.spec.load import load_spec
+from tests.fixtures import sample_info
+
+SPECS = sorted((Path(__file__).parent.parent / "templates" / "specs").glob("*.yaml"))
+TEXT_H = 3.5
+
+
+def _starter_parts() -> list[tuple[str, Part, str, str]]:
+    out = []
+    for path in SPECS:
+        spec = load_spec(path)
+        for part in run(spec).parts:
+            out.append((f"{path.stem}:{part.number}", part, spec.sheet.template,
+                        spec.sheet.projection))
+    return out
+
+
+@pytest.fixture(scope="module")
+def starter_sheets() -> dict[str, Sheet]:
+    return {name: layout_part(part, sample_info(), template=template, projection=projection)
+            for name, part, template, projection in _starter_parts()}
+
+
+def _views(sheet: Sheet) -> tuple:  # type: ignore[type-arg]
+    assert sheet.view_entities > 0
+    return sheet.entities[-sheet.view_entities:]
+
+
+def test_every_starter_spec_is_laid_out(starter_sheets: dict[str, Sheet]) -> None:
+    """Each starter spec gives at least one part drawing (the check below is not vacuous)."""
+    assert len(SPECS) >= 7
+    assert {name.split(":")[0] for name in starter_sheets} == {p.stem for p in SPECS}
+
+
+def test_starter_views_have_no_text_collisions(starter_sheets: dict[str, Sheet]) -> None:
+    """No two text boxes of the views overlap and none crosses the outline or a clear aperture
+    line (ISO 129-1: dimension text is not crossed or separated by any line; common practice
+    for letters and callouts)."""
+    bad = {name: overlap.collisions(_views(s), s.dimension_text_mm)
+           for name, s in starter_sheets.items()}
+    assert {k: v for k, v in bad.items() if v} == {}
+
+
+def test_collisions_finds_an_overlap_and_an_outline_crossing() -> None:
+    """The checker sees text on text and text on the outline (it can fail)."""
+    outline = Polyline(((0.0, 0.0), (40.0, 0.0), (40.0, 30.0), (0.0, 30.0)), closed=True,
+                       layer=Layer.OUTLINE)
+    a = AlignedDim((0.0, 40.0), (30.0, 40.0), -9.0, 6.0, 5.0, "6.00 ±0.10", (15.0, 41.0))
+    b = AngularDim((0.0, 0.0), (1.0, 0.0), (0.0, 1.0), 6.0, 90.0, "90° ±5′", (17.0, 41.5))
+    on_line = AngularDim((40.0, 0.0), (41.0, 0.0), (40.0, 1.0), 6.0, 90.0, "(90°)", (40.0, 15.0))
+    found = overlap.collisions([outline, a, b, on_line], TEXT_H)
+    assert len(found) == 2
+    assert any("overlaps" in f for f in found) and any("outline" in f for f in found)
+
+
+def test_resolve_slides_a_length_text_along_its_line() -> None:
+    """A length text on top of another moves along its own dimension line, nothing else."""
+    outline = Polyline(((0.0, 0.0), (60.0, 0.0), (60.0, 30.0), (0.0, 30.0)), closed=True,
+                       layer=Layer.OUTLINE)
+    length = AlignedDim((60.0, 30.0), (0.0, 30.0), -9.0, 12.0, 5.0, "12.00 ±0.10", (30.0, 41.0))
+    letter = Circle((30.0, 41.0), 0.8 * TEXT_H, layer=Layer.ANNOTATION)  # a fixed box in the way
+    ents, left = overlap.resolve([outline, letter, length], TEXT_H)
+    assert left == 0 and overlap.collisions(ents, TEXT_H) == []
+    moved = ents[2]
+    assert isinstance(moved, AlignedDim)
+    dx, dy = moved.text_pos[0] - 30.0, moved.text_pos[1] - 41.0
+    assert abs(dy) < 1e-9 and abs(dx) > 1.0  # along the horizontal line only
+    assert ents[:2] == [outline, letter]
+
+
+def test_resolve_moves_an_angle_outward_with_its_arc() -> None:
+    """An angle on extended legs whose text is covered moves outward, its arc kept or grown
+    under it, and the arc runs through no text."""
+    outline = Polyline(((0.0, 0.0), (30.0, 0.0), (0.0, 30.0)), closed=True, layer=Layer.OUTLINE)
+    vx = (0.0, 0.0)  # the corner; the angle stands on the legs extended to -x and -y
+    angle = AngularDim(vx, (-0.3, 0.0), (0.0, -0.3), 8.0, 90.0, "90° ±5′", (-12.0, -12.0))
+    blocker = Polyline(((-22.0, -14.5), (-2.0, -14.5), (-2.0, -9.5), (-22.0, -9.5)), closed=True,
+                       layer=Layer.ANNOTATION)
+    ents, left = overlap.resolve([outline, blocker, angle], TEXT_H)
+    assert left == 0
+    moved = ents[2]
+    assert isinstance(moved, AngularDim)
+    assert moved.radius_mm >= angle.radius_mm
+    assert math.dist(moved.text_pos, vx) > math.dist(angle.text_pos, vx)
+    assert math.dist(moved.text_pos, vx) > moved.radius_mm  # the text stands beyond its arc
+    a1, a2 = (math.radians(a) for a in moved.arc_deg())
+    sweep = (a2 - a1) % (2 * math.pi)
+    r = moved.radius_mm
+    arc = [(r * math.cos(a1 + sweep * k / 32), r * math.sin(a1 + sweep * k / 32))
+           for k in range(33)]
+    assert not any(-22.0 < x < -2.0 and -14.5 < y < -9.5 for x, y in arc)
+
+
+def test_fixed_boxes_that_collide_are_counted() -> None:
+    """Two face letters on each other cannot be moved: the pass reports the collision."""
+    ents = [Circle((0.0, 0.0), 2.8, layer=Layer.ANNOTATION),
+            Circle((1.0, 0.0), 2.8, layer=Layer.ANNOTATION)]
+    out, left = overlap.resolve(ents, TEXT_H)
+    assert out == ents and left == 1
+
+
+def test_unresolved_collisions_move_the_drawing_to_the_larger_sheet(monkeypatch: pytest.MonkeyPatch
+                                                                    ) -> None:
+    """A view left with a collision at every scale does not fit: A4 gives way to A3, and the
+    largest scale that fits the area is kept."""
+    from tests.fixtures import sample_part
+
+    part = sample_part()
+    clean = layout_part(part, sample_info(), template="a4-landscape")
+    real = overlap.resolve
+    monkeypatch.setattr(overlap, "resolve",
+                        lambda e, th, limit=None: (real(e, th, limit=limit)[0], 1))
+    crowded = layout_part(part, sample_info(), template="a4-landscape")
+    assert crowded.template == "a3-landscape"
+    assert crowded.scale >= clean.scale
+    scales = [n / d for n, d in layout.ISO_5455_SCALES]
+    assert crowded.scale in scales
