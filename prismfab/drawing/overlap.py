@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 from prismfab.drawing.extent import bbox, text_boxes
 from prismfab.drawing.geom import Rect, box_hits_segment, run_on, text_width_mm
@@ -42,13 +42,23 @@ class Box:
     half_w: float
     half_h: float
     rot_deg: float = 0.0
+    _axes: tuple[P2, P2] = field(init=False, repr=False, compare=False)
+    _hull: tuple[float, float, float, float] = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        # The collision pass asks every box for its axes and hull many thousand times.
+        c, s = math.cos(math.radians(self.rot_deg)), math.sin(math.radians(self.rot_deg))
+        object.__setattr__(self, "_axes", ((c, s), (-s, c)))
+        ac, as_ = abs(c), abs(s)
+        hx, hy = ac * self.half_w + as_ * self.half_h, as_ * self.half_w + ac * self.half_h
+        object.__setattr__(self, "_hull", (self.centre[0] - hx, self.centre[1] - hy,
+                                           self.centre[0] + hx, self.centre[1] + hy))
 
     def grown(self, pad_mm: float) -> Box:
         return replace(self, half_w=self.half_w + pad_mm, half_h=self.half_h + pad_mm)
 
     def axes(self) -> tuple[P2, P2]:
-        c, s = math.cos(math.radians(self.rot_deg)), math.sin(math.radians(self.rot_deg))
-        return (c, s), (-s, c)
+        return self._axes
 
     def corners(self) -> tuple[P2, ...]:
         (ux, uy), (vx, vy) = self.axes()
@@ -59,9 +69,7 @@ class Box:
 
     def hull(self) -> tuple[float, float, float, float]:
         """The axis-aligned box around the rectangle."""
-        c, s = abs(math.cos(math.radians(self.rot_deg))), abs(math.sin(math.radians(self.rot_deg)))
-        hx, hy = c * self.half_w + s * self.half_h, s * self.half_w + c * self.half_h
-        return self.centre[0] - hx, self.centre[1] - hy, self.centre[0] + hx, self.centre[1] + hy
+        return self._hull
 
     def local(self, p: P2) -> P2:
         (ux, uy), (vx, vy) = self.axes()
@@ -304,11 +312,27 @@ def _clear(box: Box, others: list[Box], outline: list[tuple[P2, P2]],
            lines: list[tuple[P2, P2]] | None, *, pad: float = CLEAR_MM) -> bool:
     """The box clear of other text, and ``pad`` clear of the part's lines and of ``lines``."""
     padded = box.grown(pad)
-    if any(box_hits(padded, p, q) for p, q in outline):
+    hull = padded.hull()
+    if any(box_hits(padded, p, q) for p, q in _near(outline, hull)):
         return False
     if any(boxes_overlap(box, o) for o in others):
         return False
-    return lines is None or not any(box_hits(padded, p, q) for p, q in lines)
+    return lines is None or not any(box_hits(padded, p, q) for p, q in _near(lines, hull))
+
+
+def _segments_hull(segments: list[tuple[P2, P2]]) -> tuple[float, float, float, float]:
+    xs = [c[0] for seg in segments for c in seg]
+    ys = [c[1] for seg in segments for c in seg]
+    return min(xs), min(ys), max(xs), max(ys)
+
+
+def _near(segments: list[tuple[P2, P2]], hull: tuple[float, float, float, float]
+          ) -> list[tuple[P2, P2]]:
+    """The segments whose bounding box meets ``hull`` (a cheap filter before exact tests)."""
+    x0, y0, x1, y1 = hull
+    return [(p, q) for p, q in segments
+            if not (max(p[0], q[0]) < x0 or min(p[0], q[0]) > x1
+                    or max(p[1], q[1]) < y0 or min(p[1], q[1]) > y1)]
 
 
 def _move(e: Entity, text_h: float, others: list[Box], outline: list[tuple[P2, P2]],
@@ -334,7 +358,8 @@ def _move(e: Entity, text_h: float, others: list[Box], outline: list[tuple[P2, P
                 box_hits(box.grown(CLEAR_MM if strict else INK_MM), p, q)
                 for p, q in _arc_pieces(cand)):
             return False  # the text stands clear of its own arc
-        if strict and any(segments_cross(a, b, p, q) for a, b in own for p, q in lines):
+        if strict and own and any(segments_cross(a, b, p, q)
+                                  for p, q in _near(lines, _segments_hull(own)) for a, b in own):
             return False
         return limit is None or _within(bbox([cand], text_h), limit)
 
