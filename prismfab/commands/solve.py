@@ -70,19 +70,10 @@ def run(args: argparse.Namespace) -> int:
 
 
 def solution(spec):  # type: ignore[no-untyped-def]
-    """The pipeline solution; parts/tolerancing are skipped only when not installed."""
+    """The whole model of the spec: solved, traced, sized into parts and toleranced."""
     from prismfab import pipeline
 
-    try:
-        return pipeline.run(spec)
-    except ModuleNotFoundError as err:
-        if not (err.name or "").startswith(("prismfab.design.parts", "prismfab.design.tolerance")):
-            raise
-    from prismfab.design import solve
-    from prismfab.optics.measure import measure
-
-    system = solve(spec)
-    return pipeline.Solution(spec=spec, system=system, performance=measure(system), parts=())
+    return pipeline.run(spec)
 
 
 def _r(x: float, nd: int = 6) -> float:

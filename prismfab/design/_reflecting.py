@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -78,6 +78,17 @@ def input_spread_rad(spec: Spec) -> float:
     """Largest in-plane tilt of an input ray: half the full divergence plus the alignment tilt."""
     b = spec.beam
     return (0.5 * b.divergence_in_plane_mrad + b.alignment.tilt_mrad) * 1e-3
+
+
+def round_beam_spec(spec: Spec) -> Spec:
+    """The spec with a round beam (the larger diameter and divergence in both axes), for parts
+    that see the beam at any roll: a dove prism turned about its axis, a rotating wedge pair."""
+    b = spec.beam
+    dia = max(b.diameter_in_plane_mm, b.diameter_out_of_plane_mm)
+    div = max(b.divergence_in_plane_mrad, b.divergence_out_of_plane_mrad)
+    beam = replace(b, diameter_in_plane_mm=dia, diameter_out_of_plane_mm=dia,
+                   divergence_in_plane_mrad=div, divergence_out_of_plane_mrad=div)
+    return replace(spec, beam=beam)
 
 
 def interior_angle_rad(vertices: np.ndarray, index: int) -> float:

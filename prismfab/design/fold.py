@@ -155,14 +155,7 @@ def _maker(shape: Callable[[float, float], _Layout], n0: float, index: Callable[
 
 def _sizing_spec(spec: Spec, fold: FoldType) -> Spec:
     """The spec the faces are sized for: a dove is sized for any roll (round envelope)."""
-    if fold is not FoldType.DOVE:
-        return spec
-    b = spec.beam
-    d = max(b.diameter_in_plane_mm, b.diameter_out_of_plane_mm)
-    div = max(b.divergence_in_plane_mrad, b.divergence_out_of_plane_mrad)
-    beam = dataclasses.replace(b, diameter_in_plane_mm=d, diameter_out_of_plane_mm=d,
-                               divergence_in_plane_mrad=div, divergence_out_of_plane_mrad=div)
-    return dataclasses.replace(spec, beam=beam)
+    return rf.round_beam_spec(spec) if fold is FoldType.DOVE else spec
 
 
 def design(spec: Spec) -> System:

@@ -281,14 +281,7 @@ def _warnings(spec: Spec) -> list[str]:
 
 def _sizing_spec(spec: Spec) -> Spec:
     """The spec the faces are sized for: a rotating pair sees the beam at any roll (round)."""
-    if not spec.design.pair:  # type: ignore[union-attr]
-        return spec
-    b = spec.beam
-    dia = max(b.diameter_in_plane_mm, b.diameter_out_of_plane_mm)
-    div = max(b.divergence_in_plane_mrad, b.divergence_out_of_plane_mrad)
-    beam = dataclasses.replace(b, diameter_in_plane_mm=dia, diameter_out_of_plane_mm=dia,
-                               divergence_in_plane_mrad=div, divergence_out_of_plane_mrad=div)
-    return dataclasses.replace(spec, beam=beam)
+    return rf.round_beam_spec(spec) if spec.design.pair else spec  # type: ignore[union-attr]
 
 
 def _square_for_rotation(spec: Spec, system: System) -> System:
