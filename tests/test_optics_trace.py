@@ -197,25 +197,33 @@ def test_beam_sampling() -> None:
     assert not a.origins.flags.writeable
 
 
-def _messy_rays() -> RayBundle:
-    """Rays that miss, clip on ground and end faces, refract and skew, in several wavelengths."""
+def _messy_rays(polarization: object = Polarization.UNPOLARIZED) -> RayBundle:
+    """Rays that miss, clip on ground and end faces, refract and skew, in several wavelengths.
+
+    A third of them run exactly along z and a few more within 1e-9..1e-3 rad of it, so faces
+    are met at, near and well off normal incidence in one chunk.
+    """
     rng = np.random.default_rng(11)
     n = 3000
     o = np.column_stack([rng.normal(0, 6, n), rng.normal(0, 4, n), np.zeros(n)])
     d = np.column_stack([rng.normal(0, 0.05, n), rng.normal(0, 0.05, n), np.ones(n)])
+    d[::3, :2] = 0.0
+    d[1::7, :2] *= 10.0 ** rng.uniform(-8, -2, (len(d[1::7]), 1))
     wl = rng.choice([600.0, 632.8, 700.0], n)
-    return RayBundle.create(o, d, wl, polarization=Polarization.UNPOLARIZED)
+    return RayBundle.create(o, d, wl, polarization=polarization)  # type: ignore[arg-type]
 
 
-def test_prediction_gives_the_full_search_result_bit_for_bit() -> None:
+@pytest.mark.parametrize("polarization", [Polarization.UNPOLARIZED, Polarization.P, "elliptical"])
+def test_prediction_gives_the_full_search_result_bit_for_bit(polarization: object) -> None:
     """Predicted next faces (verified per ray) and the full search give identical traces."""
     system = _pair()
-    rays = _messy_rays()
+    pol = np.array([1.0, 0.6j, 0.0]) if polarization == "elliptical" else polarization
+    rays = _messy_rays(pol)
     reflect = np.where(np.arange(rays.n_rays) % 5 == 0, 1, -1)  # some forced partial reflections
     a = trace(system, rays, index_of=_dispersive, chunk_size=257, reflect_at_event=reflect)
     b = trace(system, rays, index_of=_dispersive, chunk_size=4096, predict=False, reflect_at_event=reflect)
     assert len(set(a.status.tolist())) >= 2 and (a.n_events >= 4).sum() > 100  # a mixed bundle
-    for name in ("origins", "directions", "status", "power", "opl_mm", "n_events"):
+    for name in ("origins", "directions", "status", "power", "opl_mm", "n_events", "fields"):
         assert np.array_equal(getattr(a, name), getattr(b, name)), name
     for x, y in zip(a.event_arrays, b.event_arrays, strict=True):
         for u, v in zip(x, y, strict=True):

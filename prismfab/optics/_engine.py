@@ -18,7 +18,7 @@ from numpy.typing import NDArray
 
 from prismfab.optics import _kernel as K
 from prismfab.optics._face import STATUS_ABSORBED, STATUS_CONTINUE, STATUS_LEAKED, interact
-from prismfab.optics._state import EventArrays, Out, Rays
+from prismfab.optics._state import EventArrays, Out, Rays, clear_event
 
 F64 = NDArray[np.float64]
 I64 = NDArray[np.int64]
@@ -79,14 +79,22 @@ def _index(r: Rays, medium: int) -> float | F64:
     return float(row[0]) if r.nglass.shape[1] == 1 else row
 
 
-def _verify(tab: K.Tables, r: Rays, key: Key, target: F64) -> tuple[NDArray[np.bool_], F64, F64]:
-    """Predicted hits on face ``key``: (accepted mask, normal . d, distance); points into ``target``."""
+def _verify(tab: K.Tables, r: Rays, key: Key, target: F64) -> tuple[NDArray[np.bool_] | None, F64, F64]:
+    """Predicted hits on face ``key``: (accepted mask or None = all, normal . d, distance).
+
+    The hit points go into ``target``. The whole group is tested first with a few reductions
+    (direction, distance and the face rectangle over the extreme values); only a group that
+    fails that test is checked ray by ray.
+    """
     m, last, p, f = key
     g = int(tab.face_base[p]) + f
     solid = tab.solids[p]
     nv = solid.normals[f]
     o, d, pool, n = r.o, r.d, r.pool, r.n
     tmp = pool.get("tmp", n=n)
+    rect = tab.g_rect[g]
+    assert rect is not None
+    e, lo_e, hi_e, h, lo_h, hi_h = rect
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         dn = K.pdot(nv, d, pool.get("dn", n=n), tmp)
         t = K.pdot(nv, o, pool.get("t", n=n), tmp)
@@ -97,41 +105,57 @@ def _verify(tab: K.Tables, r: Rays, key: Key, target: F64) -> tuple[NDArray[np.b
         for i in range(3):
             np.multiply(t, d[i], out=target[i])
             target[i] += o[i]
-        rect = tab.g_rect[g]
-        assert rect is not None
-        e, lo_e, hi_e, h, lo_h, hi_h = rect
-        ok = pool.get("ok", n=n, dtype=np.bool_)
-        test = pool.get("test", n=n, dtype=np.bool_)
-        if m < 0:
-            np.less(dn, 0.0, out=ok)
-            ok &= np.greater(t, K.EPS_MM, out=test)
-        else:
-            np.greater(dn, 0.0, out=ok)
-        for vec, lo, hi in ((e, lo_e, hi_e), (h, lo_h, hi_h)):
-            x = K.pdot(vec, target, pool.get("x", n=n), tmp, view_ok=True)
-            ok &= np.greater_equal(x, lo, out=test)
-            ok &= np.less_equal(x, hi, out=test)
-    if not (r.medium.min() == r.medium.max() == m and (m >= 0 or r.last.min() == r.last.max() == last)):
-        ok &= r.medium == m
+        xs = [K.pdot(vec, target, pool.get(f"x{j}", n=n), tmp, view_ok=True) for j, vec in enumerate((e, h))]
+        ok: NDArray[np.bool_] | None = None
+        if not (dn.max() < 0.0 and t.min() > K.EPS_MM if m < 0 else dn.min() > 0.0) or not all(
+                x.min() >= lo and x.max() <= hi for x, lo, hi in zip(xs, (lo_e, lo_h), (hi_e, hi_h), strict=True)):
+            ok = pool.get("ok", n=n, dtype=np.bool_)
+            test = pool.get("test", n=n, dtype=np.bool_)
+            if m < 0:
+                np.less(dn, 0.0, out=ok)
+                ok &= np.greater(t, K.EPS_MM, out=test)
+            else:
+                np.greater(dn, 0.0, out=ok)
+            for x, lo, hi in zip(xs, (lo_e, lo_h), (hi_e, hi_h), strict=True):
+                ok &= np.greater_equal(x, lo, out=test)
+                ok &= np.less_equal(x, hi, out=test)
+    if r.uniform is None:
+        r.uniform = _uniform(r)
+    if r.uniform is None or r.uniform[0] != m or (m < 0 and r.uniform[1] != last):
+        ok = (r.medium == m) if ok is None else (ok & (r.medium == m))
         if m < 0:
             ok &= r.last == last
     if m < 0:
-        _clear_of_other_prisms(tab, r, p, last, t, target, ok)
+        ok = _clear_of_other_prisms(tab, r, p, f, last, t, target, ok)
     return ok, dn, t
 
 
-def _clear_of_other_prisms(tab: K.Tables, r: Rays, p: int, last: int, t: F64, hit: F64,
-                           ok: NDArray[np.bool_]) -> None:
-    """Clear ``ok`` where another prism could be met before the predicted hit (in air)."""
-    others = [q for q in range(len(tab.solids)) if q not in (p, last)]
-    if not others or not ok.any():
-        return
+def _uniform(r: Rays) -> tuple[int, int] | None:
+    """(medium, last) when all rays share them, else None."""
+    if r.n and r.medium.min() == r.medium.max() and r.last.min() == r.last.max():
+        return int(r.medium[0]), int(r.last[0])
+    return None
+
+
+def _clear_of_other_prisms(tab: K.Tables, r: Rays, p: int, f: int, last: int, t: F64, hit: F64,
+                           ok: NDArray[np.bool_] | None) -> NDArray[np.bool_] | None:
+    """``ok`` (None = all) cleared where another prism could be met before the predicted hit.
+
+    The rays reach face ``f`` of prism ``p`` from the outer side of its plane, so a prism that
+    lies wholly on the inner side (``g_behind``) cannot be met on the way.
+    """
+    behind = tab.g_behind[int(tab.face_base[p]) + f]
+    others = [q for q in range(len(tab.solids)) if q not in (p, last) and q not in behind]
+    if not others or (ok is not None and not ok.any()):
+        return ok
     lo = np.minimum(r.o.min(axis=1), hit.min(axis=1))
     hi = np.maximum(r.o.max(axis=1), hit.max(axis=1))
     for q in others:
         if np.all(hi >= tab.box_lo[q]) and np.all(lo <= tab.box_hi[q]):
             t_q, _ = K.entry_distance(tab, q, r.o, r.d)
-            ok &= (t_q > t) | ((t_q == t) & (q > p))
+            clear = (t_q > t) | ((t_q == t) & (q > p))
+            ok = clear if ok is None else ok & clear
+    return ok
 
 
 def run_chunk(tab: K.Tables, r: Rays, out: Out, max_events: int, predictor: Predictor) -> None:
@@ -152,23 +176,29 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
             predictor.memory[k] = None  # the rays leave: the full search is the check
     if key is not None and tab.g_rect[int(tab.face_base[key[2]]) + key[3]] is None:
         key = None
+    if key is None and predictor.enabled:
+        if r.uniform is None:
+            r.uniform = _uniform(r)
+        if r.uniform is not None and r.uniform[0] < 0 and K.all_leave(tab, r.o, r.d, r.uniform[1]):
+            r.finish(out, None, STATUS_EXITED, k)  # what the full search would find, proven at once
+            return False
     n = r.n
     ev: EventArrays | None = None
     hit = None
     created = len(out.events) <= k
     if key is not None:
         if k < max_events:
-            ev = out.event(k)
+            ev = out.event(k, unbroken=isinstance(r.ids, slice))
             hit = ev[3][:, r.ids] if isinstance(r.ids, slice) else np.empty((3, n))
         else:
             hit = np.empty((3, n))
         ok, dn, t = _verify(tab, r, key, hit)
-        n_ok = int(np.count_nonzero(ok))
+        n_ok = n if ok is None else int(np.count_nonzero(ok))
         if n_ok * 2 >= n:
             predictor.memory[k] = key
         else:
             predictor.memory.pop(k, None)
-        ex = np.flatnonzero(~ok) if n_ok < n else np.zeros(0, np.int64)
+        ex = np.flatnonzero(~ok) if ok is not None and n_ok < n else np.zeros(0, np.int64)
         if len(ex):  # harmless stand-ins (normal incidence at the start point) until overwritten
             t[ex] = 0.0
             dn[ex] = -1.0 if key[0] < 0 else 1.0
@@ -185,8 +215,11 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
     if len(gone) == n or k == max_events:
         if len(gone) < n:
             r.finish(out, ~_mask(n, gone), STATUS_TRAPPED, k)
-        if ev is not None and created and out.history:
-            out.events.pop()
+        if ev is not None and out.history:
+            if created:
+                out.drop_event()
+            else:  # the predicted hits went into the record: undo them
+                clear_event(ev, r.global_ids())
         return False
     if ev is None:
         ev = out.event(k)
@@ -201,12 +234,12 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
         r.o = hit
         if not isinstance(r.ids, slice):
             ev[3][:, r.ids] = hit
-        r.opl += np.multiply(t, n1, out=r.pool.get("tmp", n=n))
+        r.opl += t if isinstance(n1, float) and n1 == 1.0 else np.multiply(t, n1, out=r.pool.get("tmp", n=n))
         status = interact(tab, r, ev, k, p, f, dn, n1, _index(r, p) if m < 0 else 1.0, entering=m < 0)
     else:
         r.o = hit if hit is not None else (ev[3][:, r.ids] if isinstance(r.ids, slice) else np.empty((3, n)))
     if key is not None and len(gone):
-        _clear_event(ev, r.global_ids(gone))
+        clear_event(ev, r.global_ids(gone))
     if sub is not None:
         status = _exceptions(tab, r, sub, ex_hit, t_ex, prism_ex, face_ex, ev, k, status)
     if status is not None and len(gone):
@@ -226,12 +259,6 @@ def _mask(n: int, idx: I64) -> NDArray[np.bool_]:
     m = np.zeros(n, bool)
     m[idx] = True
     return m
-
-
-def _clear_event(ev: EventArrays, ids: I64) -> None:
-    """Undo the record of event arrays at ``ids`` (rays that had no such event)."""
-    ev[0][ids], ev[1][ids], ev[2][ids], ev[4][ids] = -1, -1, 0, 0.0
-    ev[3][:, ids] = 0.0
 
 
 def _exceptions(tab: K.Tables, r: Rays, sub: Rays, ex: I64, t: F64, prism: I64, face: I64,

@@ -79,85 +79,115 @@ def _dot_const(na: tuple[float, float, float], x: F64, out: F64, tmp: F64) -> F6
 
 
 def _keep_basis(r: Rays, ts: Scalar, tp: Scalar) -> None:
-    """``rotate`` when no ray has a plane of incidence: s = u, the same numbers as per ray."""
-    u, pool, n = r.u, r.pool, r.n
-    tmp = pool.get("tmp", n=n)
-    cos_a = np.multiply(u[0], u[0], out=pool.get("cos", n=n))
-    cos_a += np.multiply(u[1], u[1], out=tmp)
-    cos_a += np.multiply(u[2], u[2], out=tmp)
+    """``rotate`` when no ray has a plane of incidence: s = u (cos 1, sin 0), as per ray."""
+    pool, n = r.pool, r.n
     jones = []
     for m, (a, b) in enumerate(r.jones):
-        dt_a = np.result_type(a, cos_a, ts)
-        dt_b = np.result_type(b, cos_a, tp)
-        es = np.multiply(a, cos_a, out=pool.fresh(f"a{m}", a, n=n, dtype=dt_a))
-        ep = np.multiply(b, cos_a, out=pool.fresh(f"b{m}", b, n=n, dtype=dt_b))
         if not (isinstance(ts, float) and ts == 1.0):
-            es *= ts
+            a = np.multiply(a, ts, out=pool.fresh(f"a{m}", a, n=n, dtype=np.result_type(a, ts)))
         if not (isinstance(tp, float) and tp == 1.0):
-            ep *= tp
-        jones.append((es, ep))
+            b = np.multiply(b, tp, out=pool.fresh(f"b{m}", b, n=n, dtype=np.result_type(b, tp)))
+        jones.append((a, b))
     r.jones = jones
 
 
-def rotate(r: Rays, na: tuple[float, float, float], ts: Scalar, tp: Scalar) -> None:
+_FAST_SIN2 = 1e-2
+"""Smallest sin^2(incidence) for which |N x d| is taken as sqrt(sin^2) (good to ~1e-14 there)."""
+
+
+def rotate(r: Rays, na: tuple[float, float, float], ts: Scalar, tp: Scalar, sin2: F64) -> None:
     """Re-express every Jones pair in the face's (s, p) basis and apply (tau_s, tau_p).
 
-    Must be called with the incoming direction still in ``r.d``. At normal incidence (``N x d``
-    vanishes) any s works and the current basis is kept.
+    Must be called with the incoming direction still in ``r.d``; ``sin2`` = 1 - (N . d)^2 per
+    ray. At normal incidence (``N x d`` vanishes) any s works and the current basis is kept.
+    Every number is a function of the ray alone, whatever group it is traced in: well off the
+    normal ``|N x d| = sqrt(sin2)``, nearer to it the norm of the cross product.
     """
     d, u, pool, n = r.d, r.u, r.pool, r.n
-    tmp, tmp2 = pool.get("tmp", n=n), pool.get("tmp2", n=n)
+    tmp = pool.get("tmp", n=n)
     s = _cross_const(na, d, pool.fresh("u", u, 3, n), tmp)
-    norm = np.multiply(s[0], s[0], out=pool.get("norm", n=n))
-    norm += np.multiply(s[1], s[1], out=tmp)
-    norm += np.multiply(s[2], s[2], out=tmp)
-    np.sqrt(norm, out=norm)
-    if norm.max() < 1e-12:  # every ray at normal incidence: keep the basis (sin_a = 0)
-        _keep_basis(r, ts, tp)
-        return
-    oblique = np.greater_equal(norm, _OBLIQUE, out=pool.get("oblique", n=n, dtype=np.bool_))
-    n_oblique = int(np.count_nonzero(oblique))
-    if n_oblique < n and (degenerate := norm < 1e-12).any():
-        np.copyto(norm, 1.0, where=degenerate)
-        s /= norm
-        np.copyto(s, u, where=degenerate)
+    inv = pool.get("inv", n=n)
+    if sin2.min() >= _FAST_SIN2:
+        np.sqrt(sin2, out=inv)
+        np.divide(1.0, inv, out=inv)
+        s *= inv
+        cos_a = _dot_rows(u, s, pool.get("cos", n=n), tmp)
+        # w = -sin(a) = (u . na) / |na x d| for u, s perpendicular to the unit d
+        w = _dot_const(na, u, pool.get("w", n=n), tmp)
+        w *= inv
     else:
-        s /= norm
-    cos_a = np.multiply(u[0], s[0], out=pool.get("cos", n=n))
-    cos_a += np.multiply(u[1], s[1], out=tmp)
-    cos_a += np.multiply(u[2], s[2], out=tmp)
-    sin_a = pool.get("sin", n=n)
-    if n_oblique < n:  # near normal incidence s is ill-conditioned: take sin_a = d . (u x s)
-        for i, (j, k) in enumerate(((1, 2), (2, 0), (0, 1))):
-            np.multiply(u[j], s[k], out=tmp)
-            tmp -= np.multiply(u[k], s[j], out=tmp2)
-            if i == 0:
-                np.multiply(d[i], tmp, out=sin_a)
-            else:
-                sin_a += np.multiply(d[i], tmp, out=tmp)
-    if n_oblique:
-        # oblique rays: d . (u x s) = -(u . na) / |na x d| for u, s perpendicular to the unit d,
-        # good to ~1e-14 there and two cross products shorter; the choice is made per ray
-        short = sin_a if n_oblique == n else pool.get("sin_short", n=n)
-        _dot_const(na, u, short, tmp)
-        short /= norm
-        np.negative(short, out=short)
-        if n_oblique < n:
-            np.copyto(sin_a, short, where=oblique)
+        cos_a, w = _near_normal(r, na, s, inv, sin2)
+        if cos_a is None:  # every ray at normal incidence
+            _keep_basis(r, ts, tp)
+            return
     jones = []
     for m, (a, b) in enumerate(r.jones):
         cplx = np.iscomplexobj(a) or np.iscomplexobj(b) or np.iscomplexobj(ts) or np.iscomplexobj(tp)
         dt = np.complex128 if cplx else np.float64
         es = np.multiply(a, cos_a, out=pool.fresh(f"a{m}", a, n=n, dtype=dt))
-        es += b * sin_a if cplx else np.multiply(b, sin_a, out=tmp)
+        es -= b * w if cplx else np.multiply(b, w, out=tmp)  # a cos + b sin
         ep = np.multiply(b, cos_a, out=pool.fresh(f"b{m}", b, n=n, dtype=dt))
-        ep -= a * sin_a if cplx else np.multiply(a, sin_a, out=tmp)  # -(a sin - b cos)
+        ep += a * w if cplx else np.multiply(a, w, out=tmp)  # b cos - a sin
         if not (isinstance(ts, float) and ts == 1.0):
             es *= ts
         if not (isinstance(tp, float) and tp == 1.0):
             ep *= tp
         jones.append((es, ep))
     r.jones, r.u = jones, s
+
+
+def _near_normal(r: Rays, na: tuple[float, float, float], s: F64, inv: F64,
+                 sin2: F64) -> tuple[F64 | None, F64]:
+    """(cos a, -sin a) of a group with rays near or at normal incidence; s = unit(na x d) in place.
+
+    Returns (None, w) when every ray is at normal incidence (the basis is kept). Rays at normal
+    incidence keep s = u (cos 1, sin 0).
+    """
+    u, pool, n = r.u, r.pool, r.n
+    tmp = pool.get("tmp", n=n)
+    norm = _dot_rows(s, s, pool.get("norm", n=n), tmp)
+    np.sqrt(norm, out=norm)
+    far = sin2 >= _FAST_SIN2
+    np.sqrt(sin2, out=tmp, where=far)
+    np.copyto(norm, tmp, where=far)
+    w = pool.get("w", n=n)
+    if norm.max() < 1e-12:
+        return None, w
+    degenerate = norm < 1e-12
+    any_degenerate = bool(degenerate.any())
+    if any_degenerate:
+        np.copyto(norm, 1.0, where=degenerate)
+    np.divide(1.0, norm, out=inv)
+    s *= inv
+    if any_degenerate:
+        np.copyto(s, u, where=degenerate)
+    cos_a = _dot_rows(u, s, pool.get("cos", n=n), tmp)
+    if any_degenerate:
+        np.copyto(cos_a, 1.0, where=degenerate)
+    # w = -sin a in the short form; where the incidence is nearly normal, s carries rounding
+    # along d of order 1e-16 / |na x d|, so (cos a, sin a) is rescaled to unit length there: the
+    # rotation stays orthonormal (power is kept) and its angle is as good as s itself
+    _dot_const(na, u, w, tmp)
+    w *= inv
+    if any_degenerate:
+        np.copyto(w, 0.0, where=degenerate)
+    oblique = norm >= _OBLIQUE
+    if not oblique.all():
+        scale = np.multiply(cos_a, cos_a, out=pool.get("scale", n=n))
+        scale += np.multiply(w, w, out=tmp)
+        np.sqrt(scale, out=scale)
+        np.copyto(scale, 1.0, where=oblique)
+        cos_a /= scale
+        w /= scale
+    return cos_a, w
+
+
+def _dot_rows(x: F64, y: F64, out: F64, tmp: F64) -> F64:
+    """Row-wise ``x . y`` of (3, n) arrays into ``out``."""
+    np.multiply(x[0], y[0], out=out)
+    out += np.multiply(x[1], y[1], out=tmp)
+    out += np.multiply(x[2], y[2], out=tmp)
+    return out
 
 
 def _fresnel(c: F64, ct: F64, n1: Scalar, n2: Scalar, r: Rays) -> tuple[F64, F64]:
@@ -215,16 +245,16 @@ def interact(tab: Tables, r: Rays, ev: EventArrays, k: int, p: int, f: int, dn: 
         _record(ev, ids, p, f, EVENT_ABSORB, c)
         return np.full(r.n, STATUS_ABSORBED, np.int8)
     refl = float(tab.g_reflectance[g])
+    sin2 = np.multiply(c, c, out=pool.get("sin2", n=n))
+    np.subtract(1.0, sin2, out=sin2)
     if role == ROLE_MIRROR or (role == ROLE_TIR and not math.isnan(refl)):
         _record(ev, ids, p, f, EVENT_MIRROR, c)
         amp = math.sqrt(refl)
-        rotate(r, na, -amp, amp)
+        rotate(r, na, -amp, amp, sin2)
         r.d = _reflect(r.d, c, na)
         return None
     eta = n1 / n2
-    kk = np.multiply(c, c, out=pool.get("kk", n=n))
-    np.subtract(1.0, kk, out=kk)
-    kk *= eta * eta
+    kk = np.multiply(sin2, eta * eta, out=pool.get("kk", n=n))
     np.subtract(1.0, kk, out=kk)
     tir = bool(kk.min() < 0.0) if kk.size else False
     partial = None
@@ -233,8 +263,8 @@ def interact(tab: Tables, r: Rays, ev: EventArrays, k: int, p: int, f: int, dn: 
         if not partial.any():
             partial = None
     if role == ROLE_REFRACT and not tir and partial is None:
-        return _refract_all(r, ev, p, f, c, kk, na, eta, n1, n2, refl, entering)
-    return _mixed(r, ev, p, f, role, c, kk, na, eta, n1, n2, refl, partial, entering)
+        return _refract_all(r, ev, p, f, c, kk, sin2, na, eta, n1, n2, refl, entering)
+    return _mixed(r, ev, p, f, role, c, kk, sin2, na, eta, n1, n2, refl, partial, entering)
 
 
 def _reflect(d: F64, c: F64, na: tuple[float, float, float]) -> F64:
@@ -247,7 +277,7 @@ def _reflect(d: F64, c: F64, na: tuple[float, float, float]) -> F64:
     return out
 
 
-def _refract_all(r: Rays, ev: EventArrays, p: int, f: int, c: F64, kk: F64,
+def _refract_all(r: Rays, ev: EventArrays, p: int, f: int, c: F64, kk: F64, sin2: F64,
                  na: tuple[float, float, float], eta: Scalar, n1: Scalar, n2: Scalar, refl: float,
                  entering: bool) -> None:
     """Every ray refracts (the common case)."""
@@ -256,10 +286,10 @@ def _refract_all(r: Rays, ev: EventArrays, p: int, f: int, c: F64, kk: F64,
     ct = np.sqrt(kk, out=kk)
     if math.isnan(refl):
         ts, tp = _fresnel(c, ct, n1, n2, r)
-        rotate(r, na, ts, tp)
+        rotate(r, na, ts, tp, sin2)
     else:
         amp = math.sqrt(1.0 - refl)
-        rotate(r, na, amp, amp)
+        rotate(r, na, amp, amp, sin2)
     gam = np.multiply(c, eta, out=pool.get("gam", n=n))
     gam -= ct
     d = r.d
@@ -272,13 +302,15 @@ def _refract_all(r: Rays, ev: EventArrays, p: int, f: int, c: F64, kk: F64,
     if entering:
         r.medium.fill(p)
         r.last.fill(-1)
+        r.uniform = (p, -1)
     else:
         r.medium.fill(-1)
         r.last.fill(p)
+        r.uniform = (-1, p)
     return None
 
 
-def _mixed(r: Rays, ev: EventArrays, p: int, f: int, role: int, c: F64, kk: F64,
+def _mixed(r: Rays, ev: EventArrays, p: int, f: int, role: int, c: F64, kk: F64, sin2: F64,
            na: tuple[float, float, float], eta: Scalar, n1: Scalar, n2: Scalar, refl: float,
            partial: NDArray[np.bool_] | None, entering: bool) -> NDArray[np.int8] | None:
     """Some rays reflect (TIR, forced partial reflection) or leak (TIR face)."""
@@ -315,10 +347,11 @@ def _mixed(r: Rays, ev: EventArrays, p: int, f: int, role: int, c: F64, kk: F64,
     ts_all = np.where(tir, rs_tir, np.where(part, rs_part, ts))
     tp_all = np.where(tir, rp_tir, np.where(part, rp_part, tp))
     _record(ev, r.ids, p, f, kind, c)
-    rotate(r, na, ts_all, tp_all)
+    rotate(r, na, ts_all, tp_all, sin2)
     r.d = np.where(reflect, reflected, refracted)
     if role == ROLE_REFRACT:
         crossed = ~reflect
         r.medium = np.where(crossed, p if entering else -1, r.medium)
         r.last = np.where(crossed, -1 if entering else p, r.last)
+        r.uniform = None
     return status

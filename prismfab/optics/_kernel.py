@@ -64,6 +64,8 @@ class Tables:
     radii: F64  # (P,) bounding-sphere radii, mm
     box_lo: F64  # (P, 3) axis-aligned bounds of each solid, mm
     box_hi: F64  # (P, 3)
+    corners: tuple[F64, ...]  # (2 * sides, 3) vertices of each solid, system frame, mm
+    g_behind: tuple[frozenset[int], ...]  # per face: prisms wholly behind its plane (inner side)
 
 
 def face_reflectance(prism: Prism, face: int) -> float:
@@ -114,10 +116,11 @@ def _rect(solid: ConvexSolid, f: int) -> tuple[F64, float, float, F64, float, fl
 def build_tables(solids: tuple[ConvexSolid, ...], prisms: tuple[Prism, ...]) -> Tables:
     """Stack the face planes of all prisms; bounds for the quick rejections; coating models."""
     counts = np.array([s.normals.shape[0] for s in solids])
-    centres, radii, lo, hi = [], [], [], []
+    centres, radii, lo, hi, all_corners = [], [], [], [], []
     for s in solids:
         v = np.array([[x, y, z] for x, y in s.vertices_mm for z in (0.0, s.height_mm)])
         corners = v @ s.rotation.T + s.translation_mm
+        all_corners.append(corners)
         c = corners.mean(axis=0)
         centres.append(c)
         radii.append(float(np.max(np.linalg.norm(corners - c, axis=1))) * (1 + 1e-9) + 1e-6)
@@ -134,6 +137,10 @@ def build_tables(solids: tuple[ConvexSolid, ...], prisms: tuple[Prism, ...]) -> 
         g_roles=np.array([ROLE_CODES[r] for s in solids for r in s.roles], dtype=np.int64),
         g_reflectance=np.array(refl), g_rect=rects,
         centres=np.array(centres), radii=np.array(radii), box_lo=np.array(lo), box_hi=np.array(hi),
+        corners=tuple(all_corners),
+        g_behind=tuple(
+            frozenset(q for q, cq in enumerate(all_corners) if float(np.max(cq @ s.normals[f])) < s.offsets_mm[f] - 1e-6)
+            for s in solids for f in range(s.normals.shape[0])),
     )
 
 
@@ -208,6 +215,27 @@ def entry_distance(tab: Tables, p: int, o: F64, d: F64) -> tuple[F64, I64]:
         idx = np.flatnonzero(cand)
         t[idx], f[idx] = _slab(tab.solids[p], o[:, idx], d[:, idx])
     return t, f
+
+
+def all_leave(tab: Tables, o: F64, d: F64, skip: int = -1) -> bool:
+    """True when no ray in air can meet any prism but ``skip``: a proof for the whole group.
+
+    With ``w`` the mid direction of the group, every point ``o + t d`` (t >= 0) of every ray has
+    ``w . x >= min over the group of w . o`` as long as ``w . d > 0`` for all rays; bounding both
+    by the component ranges of ``o`` and ``d`` (interval arithmetic) costs four reductions. A
+    prism whose vertices all lie below that level (less a margin) cannot be met. False means
+    "not proven" (the caller then runs the full search), never "some ray hits".
+    """
+    d_lo, d_hi = d.min(axis=1), d.max(axis=1)
+    w = d_lo + d_hi
+    norm = float(np.sqrt(w @ w))
+    if not norm > 0.0:
+        return False
+    w /= norm
+    if float(np.minimum(w * d_lo, w * d_hi).sum()) <= 1e-6:
+        return False
+    level = float(np.minimum(w * o.min(axis=1), w * o.max(axis=1)).sum()) - 1e-6
+    return all(q == skip or float(np.max(tab.corners[q] @ w)) < level for q in range(len(tab.solids)))
 
 
 def search_air(tab: Tables, o: F64, d: F64, last: I64) -> tuple[F64, I64, I64]:

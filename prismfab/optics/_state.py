@@ -22,7 +22,8 @@ class Out:
 
     ``history=False`` (the ``record="final"`` mode): the event arrays are scratch rows that
     the engine writes hit points and cosines into and nobody reads; they are kept (never popped)
-    so one chunk-sized ``Out`` serves every chunk without allocating again.
+    so one chunk-sized ``Out`` serves every chunk without allocating again, and its final-state
+    arrays are views into the whole result (see ``bind``).
     """
 
     def __init__(self, n: int, polarized: bool, *, history: bool = True) -> None:
@@ -36,27 +37,65 @@ class Out:
         self.opl = np.zeros(n)
         self.n_events = np.zeros(n, np.int16)
         self.events: list[EventArrays] = []
+        self._ready: list[int] = []  # per event: rays below this index hold a record or the default
+        self._chunk = (0, n)
 
-    def event(self, k: int) -> EventArrays:
-        """The arrays of event ``k`` (created on first use: prism -1 = no event)."""
+    def begin_chunk(self, start: int, stop: int) -> None:
+        """Rays ``start..stop`` are traced next (see ``event``)."""
+        self._chunk = (start, stop)
+
+    def event(self, k: int, *, unbroken: bool = False) -> EventArrays:
+        """The arrays of event ``k`` (prism -1, face -1, kind 0, zero point and cosine = no event).
+
+        Arrays are created on first use without filling; the no-event values are written lazily,
+        chunk by chunk, just before the chunk writes its own records (``close`` does the rest).
+        ``unbroken``: the caller writes event ``k`` of every ray of the current chunk itself, so
+        only the rays before the chunk need the no-event values.
+        """
         while len(self.events) <= k:
             self.events.append((
-                np.full(self.n, -1, np.int16), np.full(self.n, -1, np.int16),
-                np.zeros(self.n, np.int8), np.zeros((3, self.n)), np.zeros(self.n),
+                np.empty(self.n, np.int16), np.empty(self.n, np.int16),
+                np.empty(self.n, np.int8), np.empty((3, self.n)), np.empty(self.n),
             ))
-        return self.events[k]
+            self._ready.append(0)
+        ev = self.events[k]
+        if self.history:
+            start, stop = self._chunk
+            upto = start if unbroken else stop
+            if self._ready[k] < upto:
+                clear_event(ev, slice(self._ready[k], upto))
+            self._ready[k] = max(self._ready[k], stop)
+        return ev
 
-    def copy_final(self, src: Out, start: int, count: int) -> None:
-        """Copy the final state of rays ``0..count`` of the chunk result ``src`` to ``start``."""
-        sl, dst = slice(0, count), slice(start, start + count)
-        self.o[:, dst] = src.o[:, sl]
-        self.d[:, dst] = src.d[:, sl]
-        self.status[dst] = src.status[sl]
-        self.power[dst] = src.power[sl]
-        self.opl[dst] = src.opl[sl]
-        self.n_events[dst] = src.n_events[sl]
-        if self.fields is not None and src.fields is not None:
-            self.fields[:, dst] = src.fields[:, sl]
+    def drop_event(self) -> None:
+        """Forget the last event arrays (created by a chunk none of whose rays had that event)."""
+        self.events.pop()
+        self._ready.pop()
+
+    def close(self) -> None:
+        """Write the no-event values of every ray no chunk has written yet."""
+        if self.history:
+            for k, ev in enumerate(self.events):
+                if self._ready[k] < self.n:
+                    clear_event(ev, slice(self._ready[k], self.n))
+                    self._ready[k] = self.n
+
+    def bind(self, dest: Out, start: int, count: int) -> None:
+        """Make the final-state arrays views of rays ``start..start+count`` of ``dest``.
+
+        The chunk's rays (numbered from 0) then write their final state straight into the
+        result of the whole trace, while the event arrays stay this object's own scratch rows.
+        """
+        sl = slice(start, start + count)
+        self.o, self.d, self.opl = dest.o[:, sl], dest.d[:, sl], dest.opl[sl]
+        self.status, self.power, self.n_events = dest.status[sl], dest.power[sl], dest.n_events[sl]
+        self.fields = None if dest.fields is None else dest.fields[:, sl]
+
+
+def clear_event(ev: EventArrays, ids: slice | I64) -> None:
+    """The record of rays that had no such event: prism and face -1, kind 0, zeros."""
+    ev[0][ids], ev[1][ids], ev[2][ids], ev[4][ids] = -1, -1, 0, 0.0
+    ev[3][:, ids] = 0.0
 
 
 def basis_rows(d: F64, out: F64 | None = None) -> F64:
@@ -88,15 +127,19 @@ class Rays:
         opl: optical path so far, mm.
         nglass: (P, 1) indices of every prism when the chunk has one wavelength, else (P, n).
         reflect_at: event number of the forced partial reflection per ray, or None.
+        uniform: (medium, last) when every ray is known to share them, else None (unknown).
     """
 
-    __slots__ = ("d", "ids", "jones", "last", "medium", "nglass", "o", "opl", "pool", "reflect_at", "u")
+    __slots__ = ("d", "ids", "jones", "last", "medium", "nglass", "o", "opl", "pool", "reflect_at", "u",
+                 "uniform")
 
     def __init__(self, *, ids: slice | I64, o: F64, d: F64, u: F64, jones: Jones, medium: I64,
-                 last: I64, opl: F64, nglass: F64, reflect_at: I64 | None, pool: Pool | None = None) -> None:
+                 last: I64, opl: F64, nglass: F64, reflect_at: I64 | None, pool: Pool | None = None,
+                 uniform: tuple[int, int] | None = None) -> None:
         self.ids, self.o, self.d, self.u, self.jones = ids, o, d, u, jones
         self.medium, self.last, self.opl, self.nglass, self.reflect_at = medium, last, opl, nglass, reflect_at
         self.pool = Pool(o.shape[1]) if pool is None else pool
+        self.uniform = uniform
 
     @classmethod
     def start(cls, origins: F64, directions: F64, fields: NDArray[np.complex128] | None, sl: slice,
@@ -111,27 +154,20 @@ class Rays:
         np.copyto(o, origins[sl].T)
         d = pool.fresh("d", None, 3, n)
         np.copyto(d, directions[sl].T)
-        u = basis_rows(d, pool.fresh("u", None, 3, n))
+        u = pool.fresh("u", None, 3, n)
         jones: Jones = []
-        if fields is None:
+        e = None if fields is None else fields[sl]
+        if e is None:
+            basis_rows(d, u)
             for m in range(2):
                 jones.append((pool.fresh(f"a{m}", None, n=n), pool.fresh(f"b{m}", None, n=n)))
                 jones[m][0].fill(1.0 - m)
                 jones[m][1].fill(float(m))
-        else:
-            e = fields[sl]
+        elif e.imag.any() or not _linear_start(e, u, jones, pool):
+            basis_rows(d, u)
             v = _cross_rows(d, u)
-            if e.imag.any():
-                a = e[:, 0] * u[0] + e[:, 1] * u[1] + e[:, 2] * u[2]
-                b = e[:, 0] * v[0] + e[:, 1] * v[1] + e[:, 2] * v[2]
-            else:  # real until a phase appears (TIR)
-                er = e.real
-                a = np.multiply(er[:, 0], u[0], out=pool.fresh("a0", None, n=n))
-                a += er[:, 1] * u[1]
-                a += er[:, 2] * u[2]
-                b = np.multiply(er[:, 0], v[0], out=pool.fresh("b0", None, n=n))
-                b += er[:, 1] * v[1]
-                b += er[:, 2] * v[2]
+            a = e[:, 0] * u[0] + e[:, 1] * u[1] + e[:, 2] * u[2]
+            b = e[:, 0] * v[0] + e[:, 1] * v[1] + e[:, 2] * v[2]
             jones.append((a, b))
         medium = pool.get("medium", n=n, dtype=np.int64)
         medium.fill(-1)
@@ -141,7 +177,7 @@ class Rays:
         opl.fill(0.0)
         ids = slice(0, n) if local else sl
         return cls(ids=ids, o=o, d=d, u=u, jones=jones, medium=medium, last=last, opl=opl,
-                   nglass=nglass, reflect_at=reflect_at, pool=pool)
+                   nglass=nglass, reflect_at=reflect_at, pool=pool, uniform=(-1, -1))
 
     @property
     def n(self) -> int:
@@ -162,13 +198,15 @@ class Rays:
             jones=[(a[idx], b[idx]) for a, b in self.jones], medium=self.medium[idx],
             last=self.last[idx], opl=self.opl[idx],
             nglass=self.nglass if self.nglass.shape[1] == 1 else self.nglass[:, idx],
-            reflect_at=None if self.reflect_at is None else self.reflect_at[idx],
+            reflect_at=None if self.reflect_at is None else self.reflect_at[idx], uniform=self.uniform,
         )
 
     def put(self, idx: I64, sub: Rays) -> None:
         """Write the state of ``sub`` (taken at ``idx``) back into these rays."""
         self.o[:, idx], self.d[:, idx], self.u[:, idx] = sub.o, sub.d, sub.u
         self.medium[idx], self.last[idx], self.opl[idx] = sub.medium, sub.last, sub.opl
+        if sub.uniform != self.uniform:
+            self.uniform = None
         jones = []
         for (a, b), (sa, sb) in zip(self.jones, sub.jones, strict=True):
             if np.iscomplexobj(sa) and not np.iscomplexobj(a):
@@ -206,6 +244,10 @@ class Rays:
         out.status[ids] = status
         out.opl[ids] = self.opl[s]
         out.n_events[ids] = n_events
+        real = len(self.jones) == 1 and not any(np.iscomplexobj(x) for x in self.jones[0])
+        if sel is None and isinstance(ids, slice) and real and out.fields is not None:
+            self._finish_linear(out, ids, d)
+            return
         out.power[ids] = self.power(s)
         if out.fields is not None:
             a, b = self.jones[0]
@@ -214,13 +256,51 @@ class Rays:
             if np.iscomplexobj(a) or np.iscomplexobj(b) or not isinstance(ids, slice):
                 out.fields[:, ids] = a[s] * u + b[s] * v
             else:  # write the real part in place (the imaginary part stays zero)
-                view = out.fields[:, ids]
-                if not out.history:  # a reused chunk result: clear an earlier chunk's phase
-                    view.imag[...] = 0.0
-                target = view.real
+                target = out.fields[:, ids].real
                 for i in range(3):
                     np.multiply(a, u[i], out=target[i])
                     target[i] += b * v[i]
+
+    def _finish_linear(self, out: Out, ids: slice, d: F64) -> None:
+        """Power and field of all rays with one real Jones pair, straight into ``out``.
+
+        The same arithmetic as the general case (``a a + b b``; ``a u + b (d x u)`` with the
+        cross product taken component by component), in work rows instead of temporaries.
+        """
+        (a, b), u, n = self.jones[0], self.u, self.n
+        tmp, tmp2 = self.pool.get("tmp", n=n), self.pool.get("tmp2", n=n)
+        power = out.power[ids]
+        np.multiply(a, a, out=power)
+        power += np.multiply(b, b, out=tmp)
+        target = out.fields[:, ids].real  # the imaginary part is still zero
+        for i, (j, k) in enumerate(((1, 2), (2, 0), (0, 1))):
+            np.multiply(d[j], u[k], out=tmp)
+            tmp -= np.multiply(d[k], u[j], out=tmp2)
+            tmp *= b
+            np.multiply(a, u[i], out=target[i])
+            target[i] += tmp
+
+
+def _linear_start(e: NDArray[np.complex128], u: F64, jones: Jones, pool: Pool) -> bool:
+    """Basis and Jones pair of real fields ``e`` (n, 3): ``u = e / |e|``, ``(a, b) = (|e|, 0)``.
+
+    The fields must be perpendicular to their rays (as ``RayBundle`` holds them). False (and
+    nothing appended) when a field is zero, which has no direction of its own.
+    """
+    n = u.shape[1]
+    np.copyto(u, e.real.T)
+    a = np.multiply(u[0], u[0], out=pool.fresh("a0", None, n=n))
+    tmp = pool.get("tmp", n=n)
+    a += np.multiply(u[1], u[1], out=tmp)
+    a += np.multiply(u[2], u[2], out=tmp)
+    np.sqrt(a, out=a)
+    if not a.min() > 0.0:
+        return False
+    u /= a
+    b = pool.fresh("b0", None, n=n)
+    b.fill(0.0)
+    jones.append((a, b))
+    return True
 
 
 def _cross_rows(a: F64, b: F64) -> F64:

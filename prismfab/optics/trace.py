@@ -334,11 +334,12 @@ def trace(
                 nglass = ntab[:, inv[:1]] if inv.min() == inv.max() else ntab[:, inv]
             chunk = Rays.start(rays.origins, rays.directions, rays.fields, sl, nglass,
                                None if reflect is None else reflect[sl], pool, local=light)
-            if local is None:
-                run_chunk(tab, chunk, out, max_events, predictor)
+            if local is not None:
+                local.bind(out, start, sl.stop - start)
             else:
-                run_chunk(tab, chunk, local, max_events, predictor)
-                out.copy_final(local, start, sl.stop - start)
+                out.begin_chunk(start, sl.stop)
+            run_chunk(tab, chunk, out if local is None else local, max_events, predictor)
+        out.close()
     elif n:
         Rays.start(rays.origins, rays.directions, rays.fields, slice(0, n), np.ones((0, 1)),
                    None).finish(out, None, STATUS_EXITED, 0)
