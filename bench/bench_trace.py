@@ -16,6 +16,13 @@ holding results would) and ``record="final"`` (final state only: the same next-f
 Snell, TIR, absorption, Fresnel amplitudes and basis rotation, optical path; no history).
 Peak memory of one 1e6-ray trace in each mode is taken with tracemalloc (numpy reports its
 buffers there).
+
+A third, informative row times a "physics floor": the floor kernel plus the arithmetic the
+tracer cannot leave out - Fresnel amplitudes, the s/p basis rotation of a linear field, the
+optical path, the whole-group check of the hit rectangle, and the final field and power - still
+on the known face sequence, with no search, no exception handling and no event record. Its
+ratio to the floor is what the required physics costs in numpy on this machine; the tracer's
+ratio to it is the cost of finding faces and keeping records.
 """
 
 from __future__ import annotations
@@ -66,24 +73,32 @@ def _floor(system, rays: RayBundle, faces: list[tuple[int, int]], chunk: int) ->
     return n * len(faces)
 
 
+def _move_to_plane(solid, f: int, o: np.ndarray, d: np.ndarray, dn_: np.ndarray, t_: np.ndarray,  # type: ignore[no-untyped-def]
+                   tmp_: np.ndarray) -> list[tuple[int, float]]:
+    """Rows o (3, n) moved in place to plane f along d; dn_ = n.d, t_ = distance. Returns the
+    non-zero normal components (index, value)."""
+    nv = solid.normals[f]
+    comps = [(i, float(nv[i])) for i in range(3) if nv[i] != 0.0]
+    # distance to the plane: t = (offset - n.o) / (n.d)
+    np.multiply(d[comps[0][0]], comps[0][1], out=dn_)
+    np.multiply(o[comps[0][0]], comps[0][1], out=t_)
+    for i, c in comps[1:]:
+        dn_ += np.multiply(d[i], c, out=tmp_)
+        t_ += np.multiply(o[i], c, out=tmp_)
+    np.subtract(solid.offsets_mm[f], t_, out=t_)
+    t_ /= dn_
+    for i in range(3):  # hit point
+        o[i] += np.multiply(t_, d[i], out=tmp_)
+    return comps
+
+
 def _floor_chunk(solids, faces, n_glass: float, o: np.ndarray, d: np.ndarray,  # type: ignore[no-untyped-def]
                  work: np.ndarray) -> None:
     """Move rows o, d (3, n) in place through ``faces`` (the glass entered on every other face)."""
     dn_, t_, tmp_, k_ = work
     inside = False
     for p, f in faces:
-        nv = solids[p].normals[f]
-        comps = [(i, float(nv[i])) for i in range(3) if nv[i] != 0.0]
-        # distance to the plane: t = (offset - n.o) / (n.d)
-        np.multiply(d[comps[0][0]], comps[0][1], out=dn_)
-        np.multiply(o[comps[0][0]], comps[0][1], out=t_)
-        for i, c in comps[1:]:
-            dn_ += np.multiply(d[i], c, out=tmp_)
-            t_ += np.multiply(o[i], c, out=tmp_)
-        np.subtract(solids[p].offsets_mm[f], t_, out=t_)
-        t_ /= dn_
-        for i in range(3):  # hit point
-            o[i] += np.multiply(t_, d[i], out=tmp_)
+        comps = _move_to_plane(solids[p], f, o, d, dn_, t_, tmp_)
         # vector Snell: d' = eta d + (eta c - sqrt(1 - eta^2 (1 - c^2))) na, na facing the ray
         sign = -1.0 if inside else 1.0
         eta = n_glass if inside else 1.0 / n_glass
@@ -100,6 +115,115 @@ def _floor_chunk(solids, faces, n_glass: float, o: np.ndarray, d: np.ndarray,  #
         for i, cn in comps:
             d[i] += np.multiply(tmp_, cn * sign, out=k_)
         inside = not inside
+
+
+def _physics_floor(system, rays: RayBundle, faces: list[tuple[int, int]], chunk: int) -> int:  # type: ignore[no-untyped-def]
+    """The floor plus Fresnel, basis rotation, path, rectangle check and final field. Interactions."""
+    solids = [solid_of(p) for p in system.prisms]
+    n_glass = float(_index("", rays.wavelengths_nm[:1])[0])
+    n = rays.n_rays
+    m = min(n, chunk)
+    rows = np.empty((15, m))
+    vecs = np.empty((4, 3, m))
+    power, fields, opl = np.zeros(n), np.zeros((3, n), complex), np.zeros(n)
+    for start in range(0, n, chunk):
+        k = min(n, start + chunk) - start
+        work, (o, d, u, s) = rows[:, :k], vecs[:, :, :k]
+        np.copyto(o, rays.origins[start:start + k].T)
+        np.copyto(d, rays.directions[start:start + k].T)
+        assert rays.fields is not None
+        np.copyto(u, rays.fields[start:start + k].real.T)
+        a, b = work[13], work[14]
+        a.fill(1.0)
+        b.fill(0.0)
+        u, s = _physics_chunk(solids, faces, n_glass, o, d, u, s, a, b, work[:13], opl[start:start + k])
+        _field_out(d, u, a, b, work[:2], power[start:start + k], fields[:, start:start + k])
+    return n * len(faces)
+
+
+def _physics_chunk(solids, faces, n_glass: float, o, d, u, s, a, b, work, opl):  # type: ignore[no-untyped-def]
+    """Rows (3, n) o, d, u and the Jones pair a, b through ``faces``; returns (u, spare)."""
+    dn_, t_, tmp_, c_, s2_, ct_, q2_, root_, ts_, tp_, inv_, cos_, w_ = work
+    inside = False
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for p, f in faces:
+            comps = _move_to_plane(solids[p], f, o, d, dn_, t_, tmp_)
+            _ = (o[1].min(), o[1].max(), o[0].min(), o[0].max(), dn_.max(), t_.min())  # rectangle check
+            opl += np.multiply(t_, n_glass, out=tmp_) if inside else t_
+            sign = -1.0 if inside else 1.0
+            na = [(i, cn * sign) for i, cn in comps]
+            eta = n_glass if inside else 1.0 / n_glass
+            n1, n2 = (n_glass, 1.0) if inside else (1.0, n_glass)
+            np.multiply(dn_, -sign, out=c_)
+            np.multiply(c_, c_, out=s2_)
+            np.subtract(1.0, s2_, out=s2_)
+            np.multiply(s2_, eta * eta, out=ct_)
+            np.subtract(1.0, ct_, out=ct_)
+            np.sqrt(ct_, out=ct_)
+            # power-normalised Fresnel amplitudes
+            q1 = np.multiply(c_, n1, out=tmp_) if inside else c_
+            np.multiply(ct_, n2, out=q2_)
+            np.multiply(q1, q2_, out=root_)
+            np.sqrt(root_, out=root_)
+            root_ *= 2.0
+            np.add(q1, q2_, out=ts_)
+            np.divide(root_, ts_, out=ts_)
+            np.multiply(c_, n2, out=tp_)
+            tp_ += np.multiply(ct_, n1, out=tmp_) if inside else ct_
+            np.divide(root_, tp_, out=tp_)
+            if s2_.max() == 0.0:  # every ray at normal incidence: the basis is kept
+                a *= ts_
+                b *= tp_
+                _snell(d, c_, ct_, eta, na, tmp_, root_)
+                inside = not inside
+                continue
+            # s = (na x d) / sin(incidence); cos = u . s; w = (u . na) / sin
+            nx = dict(na)
+            n0, n1_, n2_ = nx.get(0, 0.0), nx.get(1, 0.0), nx.get(2, 0.0)
+            np.multiply(d[1], -n2_, out=s[0])
+            np.multiply(d[0], n2_, out=s[1])
+            s[1] -= np.multiply(d[2], n0, out=tmp_)
+            np.multiply(d[1], n0, out=s[2])
+            np.sqrt(s2_, out=inv_)  # (rays near normal incidence take the short form: a lower bound)
+            np.divide(1.0, inv_, out=inv_)
+            s *= inv_
+            np.multiply(u[0], s[0], out=cos_)
+            cos_ += np.multiply(u[1], s[1], out=tmp_)
+            cos_ += np.multiply(u[2], s[2], out=tmp_)
+            np.multiply(u[0], n0, out=w_)
+            w_ += np.multiply(u[2], n2_, out=tmp_)
+            w_ *= inv_
+            np.multiply(a, cos_, out=root_)
+            root_ -= np.multiply(b, w_, out=tmp_)
+            b *= cos_
+            b += np.multiply(a, w_, out=tmp_)
+            np.multiply(root_, ts_, out=a)
+            b *= tp_
+            u, s = s, u
+            _snell(d, c_, ct_, eta, na, tmp_, root_)
+            inside = not inside
+    return u, s
+
+
+def _snell(d, c, ct, eta: float, na, tmp, tmp2) -> None:  # type: ignore[no-untyped-def]
+    """Vector Snell in place: d' = eta d + (eta c - ct) na."""
+    np.multiply(c, eta, out=tmp)
+    tmp -= ct
+    d *= eta
+    for i, cn in na:
+        d[i] += np.multiply(tmp, cn, out=tmp2)
+
+
+def _field_out(d, u, a, b, work, power, fields) -> None:  # type: ignore[no-untyped-def]
+    """Power a^2 + b^2 and field a u + b (d x u) of every ray."""
+    tmp, tmp2 = work
+    np.multiply(a, a, out=power)
+    power += np.multiply(b, b, out=tmp)
+    for i, (j, k) in enumerate(((1, 2), (2, 0), (0, 1))):
+        np.multiply(d[j], u[k], out=tmp)
+        tmp -= np.multiply(d[k], u[j], out=tmp2)
+        tmp *= b
+        fields[i] = np.multiply(a, u[i], out=tmp2) + tmp
 
 
 def _timed(fn):  # type: ignore[no-untyped-def]
@@ -135,8 +259,8 @@ def run() -> list[dict[str, object]]:
     faces = [(int(p), int(f)) for p, f in zip(chief.event_prism[0], chief.event_face[0], strict=True)]
     for record in ("full", "final"):  # warm-up
         trace(system, bundles[0], index_of=_index, chunk_size=CHUNK, record=record)
-    t_full, t_final, t_floor = 0.0, 0.0, 0.0
-    n_full, n_final, n_floor = 0, 0, 0
+    t_full, t_final, t_floor, t_physics = 0.0, 0.0, 0.0, 0.0
+    n_full, n_final, n_floor, n_physics = 0, 0, 0, 0
     kept = None  # the previous full result stays alive, as in a caller that holds its results
     for b in bundles:
         res, dt = _timed(lambda b=b: trace(system, b, index_of=_index, chunk_size=CHUNK))
@@ -146,6 +270,8 @@ def run() -> list[dict[str, object]]:
         del light
         count, df = _timed(lambda b=b: _floor(system, b, faces, CHUNK))
         t_floor, n_floor = t_floor + df, n_floor + count
+        count, dp = _timed(lambda b=b: _physics_floor(system, b, faces, CHUNK))
+        t_physics, n_physics = t_physics + dp, n_physics + count
     if n_final != n_full:
         raise RuntimeError(f"bench_trace: record='final' counted {n_final} interactions, 'full' {n_full}")
     floor_rate = n_floor / t_floor
@@ -153,6 +279,10 @@ def run() -> list[dict[str, object]]:
     return [
         _rate_row("full", n_full / t_full, floor_rate),
         _rate_row("final", n_final / t_final, floor_rate),
+        {"name": "physics floor interactions/s (floor + Fresnel, s/p rotation, path, field; known faces)",
+         "value": n_physics / t_physics, "unit": "1/s", "floor": floor_rate,
+         "ratio": floor_rate / (n_physics / t_physics),
+         "goal": "informative: the ratio the required physics alone costs in numpy"},
         {"name": "trace wall time, 3e6 rays, record=full", "value": t_full, "unit": "s"},
         {"name": "trace wall time, 3e6 rays, record=final", "value": t_final, "unit": "s"},
         {"name": "trace peak memory, 1e6 rays, record=full", "value": _peak_mb(system, "full"),

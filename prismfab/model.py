@@ -323,17 +323,20 @@ class System:
 
 @dataclass(frozen=True, slots=True)
 class Ghost:
-    """A first-order reflected path (a stray beam).
+    """A reflected path (a stray beam): one partial reflection (first order) or two (second).
 
     Args:
-        prism: name of the prism whose face reflects.
-        face: label of the reflecting face.
+        prism: name of the prism whose face reflects (first).
+        face: label of the reflecting face (first).
         wavelength_nm: wavelength traced.
         power_fraction: power of the ghost relative to the input.
         direction: unit direction where it leaves the system (or at its last face).
         angle_to_source_mrad: angle between the ghost and the reversed input beam.
-        destination: "source" (back into the laser), "forward", "sideways", or "trapped".
+        destination: "source" (back into the laser), "backward" (reversed but clear of the source),
+            "forward", "sideways", or "trapped".
         warning: true when it returns within the back-reflection limit of the source.
+        second_prism, second_face: where a second-order ghost reflects the second time ("" for
+            a first-order ghost).
     """
 
     prism: str
@@ -344,6 +347,19 @@ class Ghost:
     angle_to_source_mrad: float
     destination: str
     warning: bool = False
+    second_prism: str = ""
+    second_face: str = ""
+
+    @property
+    def order(self) -> int:
+        """1 for one partial reflection, 2 for two."""
+        return 2 if self.second_face else 1
+
+    @property
+    def path(self) -> str:
+        """The reflecting faces in order, e.g. "P1 C" or "P2 A, then P1 B"."""
+        first = f"{self.prism} {self.face}"
+        return first if not self.second_face else f"{first}, then {self.second_prism} {self.second_face}"
 
 
 @dataclass(frozen=True, slots=True)

@@ -131,6 +131,8 @@ def test_constant_deviation_folds_are_tilted_against_feedback(kind):
     perf = measure(system)
     assert not any(g.warning for g in perf.ghosts)
     assert not perf.warnings and not system.warnings
+    if kind is FoldType.RETRO:  # twice round the retro: reversed exactly, but beside the source
+        assert any(g.order == 2 and g.destination == "backward" for g in perf.ghosts)
     assert fact(system, "anti-feedback tilt of the prism (deviation unchanged)") == 1.0
     entry = system.aoi_ranges_deg[-1 if kind is FoldType.PENTA else 0]
     assert entry[2] == pytest.approx(1.0, abs=1e-6)  # the entry face meets the beam at the tilt

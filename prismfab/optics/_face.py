@@ -147,9 +147,10 @@ def _near_normal(r: Rays, na: tuple[float, float, float], s: F64, inv: F64,
     tmp = pool.get("tmp", n=n)
     norm = _dot_rows(s, s, pool.get("norm", n=n), tmp)
     np.sqrt(norm, out=norm)
-    far = sin2 >= _FAST_SIN2
-    np.sqrt(sin2, out=tmp, where=far)
-    np.copyto(norm, tmp, where=far)
+    if sin2.max() >= _FAST_SIN2:  # the rays well off the normal take the same norm as in ``rotate``
+        far = sin2 >= _FAST_SIN2
+        np.sqrt(sin2, out=tmp, where=far)
+        np.copyto(norm, tmp, where=far)
     w = pool.get("w", n=n)
     if norm.max() < 1e-12:
         return None, w
@@ -260,6 +261,8 @@ def interact(tab: Tables, r: Rays, ev: EventArrays, k: int, p: int, f: int, dn: 
     partial = None
     if r.reflect_at is not None and role == ROLE_REFRACT:
         partial = r.reflect_at == k
+        if partial.ndim == 2:  # several forced reflections per ray
+            partial = partial.any(axis=1)
         if not partial.any():
             partial = None
     if role == ROLE_REFRACT and not tir and partial is None:

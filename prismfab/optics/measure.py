@@ -18,7 +18,7 @@ from numpy.typing import NDArray
 
 from prismfab.model import Performance, System, Vec3, WavelengthResult
 from prismfab.optics.beam import beam_frame
-from prismfab.optics.ghosts import first_order_ghosts, ghost_warning
+from prismfab.optics.ghosts import ghost_warning, ghosts
 from prismfab.optics.solid import ConvexSolid
 from prismfab.optics.trace import (
     STATUS_EXITED,
@@ -82,10 +82,10 @@ def measure(
     warnings: list[str] = []
     results = tuple(_result(system, res, i * _RAYS, w, index_of, warnings)
                     for i, w in enumerate(wavelengths))
-    ghosts = first_order_ghosts(system, res, 0, wavelength_nm=wavelengths[0],
-                                back_reflection_mrad=back_reflection_mrad, index_of=index_of)
-    warnings += [ghost_warning(g, back_reflection_mrad) for g in ghosts if g.warning]
-    return Performance(results=results, ghosts=ghosts, chief_ray_mm=_chief_path(system, res),
+    found = ghosts(system, res, 0, wavelength_nm=wavelengths[0], back_reflection_mrad=back_reflection_mrad,
+                   index_of=index_of)
+    warnings += [ghost_warning(g, back_reflection_mrad) for g in found if g.warning]
+    return Performance(results=results, ghosts=found, chief_ray_mm=_chief_path(system, res),
                        warnings=tuple(warnings))
 
 

@@ -283,7 +283,8 @@ def trace(
             catalogue extended by ``system.materials_file``.
         reflect_at_event: optional (N,) event numbers (0-based): at that event a ray meeting a
             refracting face takes the partial reflection (Fresnel, or the coating's reflectance)
-            instead of the transmission (ghost tracing); -1 for none.
+            instead of the transmission (ghost tracing); -1 for none. An (N, K) array gives up
+            to K such events per ray (higher-order ghosts).
         chunk_size: rays per numpy block (memory/cache trade-off only; results do not depend on it).
         predict: False sends every ray through the full next-face search (a check of the
             prediction; the results are bit-identical either way).
@@ -310,8 +311,15 @@ def trace(
     solids = tuple(solid_of(p) for p in system.prisms)
     n = rays.n_rays
     out = Out(n, rays.fields is not None)
-    reflect = None if reflect_at_event is None else np.broadcast_to(
-        np.asarray(reflect_at_event, np.int64), (n,))
+    reflect = None
+    if reflect_at_event is not None:
+        given = np.asarray(reflect_at_event, np.int64)
+        if given.ndim == 2:
+            if given.shape[0] != n:
+                raise ValueError(f"trace: reflect_at_event has {given.shape[0]} rows for {n} rays")
+            reflect = given
+        else:
+            reflect = np.broadcast_to(given, (n,))
     if n and solids:
         tab = K.build_tables(solids, system.prisms)
         wl = rays.wavelengths_nm

@@ -181,9 +181,9 @@ def _face_rows(solution: Any) -> list[list[str]]:
 
 
 def _ghost_rows(solution: Any) -> list[list[str]]:
-    rows = [["Prism", "Face", "λ (nm)", "Power", "To source (mrad)", "Goes", "Flag"]]
+    rows = [["Order", "Reflected at (prism face)", "λ (nm)", "Power", "To source (mrad)", "Goes", "Flag"]]
     for g in solution.performance.ghosts:
-        rows.append([g.prism, g.face, f"{g.wavelength_nm:g}", f"{100 * g.power_fraction:.3f} %",
+        rows.append([str(g.order), g.path, f"{g.wavelength_nm:g}", f"{100 * g.power_fraction:.3g} %",
                      f"{g.angle_to_source_mrad:.1f}", g.destination,
                      "BACK REFLECTION" if g.warning else ""])
     return rows
@@ -254,7 +254,7 @@ def report_story(solution: Any) -> list[Any]:
     if perf.ghosts:
         story.append(L.table(_ghost_rows(solution)))
     else:
-        story.append(L.para("No first-order ghost leaves the system."))
+        story.append(L.para("No first- or second-order ghost leaves the system."))
     tuning = _tuning_plot(solution)
     if tuning is not None:
         story += [L.subheading("5  Adjustment range"), tuning]
