@@ -11,13 +11,25 @@ and are handled in groups of equal (prism, face, medium).
 
 from __future__ import annotations
 
+import math
 from collections import Counter
 
 import numpy as np
 from numpy.typing import NDArray
 
 from prismfab.optics import _kernel as K
-from prismfab.optics._face import STATUS_ABSORBED, STATUS_CONTINUE, STATUS_LEAKED, interact
+from prismfab.optics import _lane
+from prismfab.optics._face import (
+    DEGENERATE,
+    FAST_SIN2,
+    OBLIQUE,
+    STATUS_ABSORBED,
+    STATUS_CONTINUE,
+    STATUS_LEAKED,
+    interact,
+    record,
+)
+from prismfab.optics._kernel import EVENT_REFRACT
 from prismfab.optics._state import EventArrays, Out, Rays, clear_event
 
 F64 = NDArray[np.float64]
@@ -192,19 +204,31 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
             hit = ev[3][:, r.ids] if isinstance(r.ids, slice) else np.empty((3, n))
         else:
             hit = np.empty((3, n))
-        ok, dn, t = _verify(tab, r, key, hit)
+        lane = _lane_inputs(tab, r, key, k) if ev is not None else None
+        if lane is not None:  # verify and interact in one pass; unverified rays left untouched
+            assert ev is not None
+            if isinstance(r.ids, slice):
+                cos_in, rec = ev[4][r.ids], (ev[0][r.ids], ev[1][r.ids], ev[2][r.ids])
+            else:  # work rows; the record is written below
+                pool = r.pool
+                cos_in = pool.get("c", n=n)
+                rec = (pool.get("rec_p", n=n, dtype=np.int16), pool.get("rec_f", n=n, dtype=np.int16),
+                       pool.get("rec_k", n=n, dtype=np.int8))
+            ok = _run_lane(r, lane, hit, cos_in, rec)
+        else:
+            ok, dn, t = _verify(tab, r, key, hit)
         n_ok = n if ok is None else int(np.count_nonzero(ok))
         if n_ok * 2 >= n:
             predictor.memory[k] = key
         else:
             predictor.memory.pop(k, None)
         ex = np.flatnonzero(~ok) if ok is not None and n_ok < n else np.zeros(0, np.int64)
-        if len(ex):  # harmless stand-ins (normal incidence at the start point) until overwritten
+        if len(ex) and lane is None:  # harmless stand-ins (normal incidence at the start) until overwritten
             t[ex] = 0.0
             dn[ex] = -1.0 if key[0] < 0 else 1.0
             hit[:, ex] = r.o[:, ex]
     else:
-        n_ok, ex = 0, np.arange(n)
+        n_ok, ex, lane = 0, np.arange(n), None
     if len(ex):
         t_ex, prism_ex, face_ex = search(tab, r if len(ex) == n else r.take(ex))
     else:
@@ -234,8 +258,13 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
         r.o = hit
         if not isinstance(r.ids, slice):
             ev[3][:, r.ids] = hit
-        r.opl += t if isinstance(n1, float) and n1 == 1.0 else np.multiply(t, n1, out=r.pool.get("tmp", n=n))
-        status = interact(tab, r, ev, k, p, f, dn, n1, _index(r, p) if m < 0 else 1.0, entering=m < 0)
+        if lane is not None:  # done in the lane: the record and the medium remain
+            if not isinstance(r.ids, slice):
+                record(ev, r.ids, p, f, EVENT_REFRACT, cos_in)
+            r.crossed(p, entering=m < 0)
+        else:
+            r.opl += t if isinstance(n1, float) and n1 == 1.0 else np.multiply(t, n1, out=r.pool.get("tmp", n=n))
+            status = interact(tab, r, ev, k, p, f, dn, n1, _index(r, p) if m < 0 else 1.0, entering=m < 0)
     else:
         r.o = hit if hit is not None else (ev[3][:, r.ids] if isinstance(r.ids, slice) else np.empty((3, n)))
     if key is not None and len(gone):
@@ -253,6 +282,54 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
     if drop is not None and drop.any():
         r.keep(~drop)
     return True
+
+
+def _lane_inputs(tab: K.Tables, r: Rays, key: Key, k: int) -> tuple[F64, F64] | None:
+    """(face, optics) rows for the compiled lane, or None when this event is not for it.
+
+    The lane takes a refracting face met by one-wavelength rays with real fields, from a known
+    medium, with no forced reflection at this event and (in air) no other prism to clear.
+    """
+    if not _lane.available() or r.n == 0:
+        return None
+    m, last, p, f = key
+    g = int(tab.face_base[p]) + f
+    if int(tab.g_roles[g]) != K.ROLE_REFRACT or r.nglass.shape[1] != 1 or not 1 <= len(r.jones) <= 2:
+        return None
+    if r.reflect_at is not None and bool((r.reflect_at == k).any()):
+        return None
+    if r.uniform is None:
+        r.uniform = _uniform(r)
+    if r.uniform is None or r.uniform[0] != m or (m < 0 and r.uniform[1] != last):
+        return None
+    if m < 0 and any(q not in (p, last) and q not in tab.g_behind[g] for q in range(len(tab.solids))):
+        return None
+    rows = [r.opl] + [x for pair in r.jones for x in pair]
+    if not (all(_lane.row_ok(x, writeable=True) for x in rows) and _lane.block_ok(r.o)
+            and _lane.block_ok(r.d, writeable=True) and _lane.block_ok(r.u, writeable=True)):
+        return None
+    rect = tab.g_rect[g]
+    assert rect is not None
+    e, lo_e, hi_e, h, lo_h, hi_h = rect
+    solid = tab.solids[p]
+    face = np.array([*solid.normals[f], solid.offsets_mm[f], *e, lo_e, hi_e, *h, lo_h, hi_h], float)
+    n1 = _index(r, m)
+    n2 = _index(r, p) if m < 0 else 1.0
+    assert isinstance(n1, float) and isinstance(n2, float)
+    refl = float(tab.g_reflectance[g])
+    amp = -1.0 if math.isnan(refl) else math.sqrt(1.0 - refl)
+    optics = np.array([1.0 if m < 0 else 0.0, n1, n2, n1 / n2, amp, K.EPS_MM, FAST_SIN2, OBLIQUE,
+                       DEGENERATE, p, f, EVENT_REFRACT], float)
+    return face, optics
+
+
+def _run_lane(r: Rays, lane: tuple[F64, F64], hit: F64, cos_in: F64,
+              rec: tuple[NDArray[np.int16], NDArray[np.int16], NDArray[np.int8]]) -> NDArray[np.bool_] | None:
+    """Run the compiled lane on all rays of ``r`` (done rays updated in place, flagged rays left
+    as they were); the mask of the rays done, or None when all are."""
+    flag = r.pool.get("flag", n=r.n, dtype=np.uint8)
+    flagged = _lane.refract(lane[0], lane[1], r.o, r.d, r.u, r.jones, r.opl, hit, cos_in, flag, rec)
+    return None if flagged == 0 else flag == _lane.FLAG_DONE
 
 
 def _mask(n: int, idx: I64) -> NDArray[np.bool_]:

@@ -58,7 +58,7 @@ def _cross_const(na: tuple[float, float, float], d: F64, out: F64, tmp: F64) -> 
     return out
 
 
-_OBLIQUE = 1e-2
+OBLIQUE = 1e-2
 """Smallest sin(incidence) of a group for the short form of the basis-rotation sine."""
 
 
@@ -91,7 +91,10 @@ def _keep_basis(r: Rays, ts: Scalar, tp: Scalar) -> None:
     r.jones = jones
 
 
-_FAST_SIN2 = 1e-2
+DEGENERATE = 1e-12
+"""|N x d| below which a ray counts as meeting the face at normal incidence (the basis is kept)."""
+
+FAST_SIN2 = 1e-2
 """Smallest sin^2(incidence) for which |N x d| is taken as sqrt(sin^2) (good to ~1e-14 there)."""
 
 
@@ -107,7 +110,7 @@ def rotate(r: Rays, na: tuple[float, float, float], ts: Scalar, tp: Scalar, sin2
     tmp = pool.get("tmp", n=n)
     s = _cross_const(na, d, pool.fresh("u", u, 3, n), tmp)
     inv = pool.get("inv", n=n)
-    if sin2.min() >= _FAST_SIN2:
+    if sin2.min() >= FAST_SIN2:
         np.sqrt(sin2, out=inv)
         np.divide(1.0, inv, out=inv)
         s *= inv
@@ -147,14 +150,14 @@ def _near_normal(r: Rays, na: tuple[float, float, float], s: F64, inv: F64,
     tmp = pool.get("tmp", n=n)
     norm = _dot_rows(s, s, pool.get("norm", n=n), tmp)
     np.sqrt(norm, out=norm)
-    if sin2.max() >= _FAST_SIN2:  # the rays well off the normal take the same norm as in ``rotate``
-        far = sin2 >= _FAST_SIN2
+    if sin2.max() >= FAST_SIN2:  # the rays well off the normal take the same norm as in ``rotate``
+        far = sin2 >= FAST_SIN2
         np.sqrt(sin2, out=tmp, where=far)
         np.copyto(norm, tmp, where=far)
     w = pool.get("w", n=n)
-    if norm.max() < 1e-12:
+    if norm.max() < DEGENERATE:
         return None, w
-    degenerate = norm < 1e-12
+    degenerate = norm < DEGENERATE
     any_degenerate = bool(degenerate.any())
     if any_degenerate:
         np.copyto(norm, 1.0, where=degenerate)
@@ -172,7 +175,7 @@ def _near_normal(r: Rays, na: tuple[float, float, float], s: F64, inv: F64,
     w *= inv
     if any_degenerate:
         np.copyto(w, 0.0, where=degenerate)
-    oblique = norm >= _OBLIQUE
+    oblique = norm >= OBLIQUE
     if not oblique.all():
         scale = np.multiply(cos_a, cos_a, out=pool.get("scale", n=n))
         scale += np.multiply(w, w, out=tmp)
@@ -212,7 +215,7 @@ def _is_one(x: Scalar) -> bool:
     return isinstance(x, float) and x == 1.0
 
 
-def _record(ev: EventArrays, ids: slice | NDArray[np.int64], p: int, f: int, kind: int | NDArray[np.int64],
+def record(ev: EventArrays, ids: slice | NDArray[np.int64], p: int, f: int, kind: int | NDArray[np.int64],
             c: F64) -> None:
     ev[0][ids], ev[1][ids], ev[2][ids] = p, f, kind
     if not isinstance(ids, slice):  # else c is already the event row
@@ -243,13 +246,13 @@ def interact(tab: Tables, r: Rays, ev: EventArrays, k: int, p: int, f: int, dn: 
     role = int(tab.g_roles[g])
     ids = r.ids
     if role == ROLE_ABSORB:
-        _record(ev, ids, p, f, EVENT_ABSORB, c)
+        record(ev, ids, p, f, EVENT_ABSORB, c)
         return np.full(r.n, STATUS_ABSORBED, np.int8)
     refl = float(tab.g_reflectance[g])
     sin2 = np.multiply(c, c, out=pool.get("sin2", n=n))
     np.subtract(1.0, sin2, out=sin2)
     if role == ROLE_MIRROR or (role == ROLE_TIR and not math.isnan(refl)):
-        _record(ev, ids, p, f, EVENT_MIRROR, c)
+        record(ev, ids, p, f, EVENT_MIRROR, c)
         amp = math.sqrt(refl)
         rotate(r, na, -amp, amp, sin2)
         r.d = _reflect(r.d, c, na)
@@ -284,7 +287,7 @@ def _refract_all(r: Rays, ev: EventArrays, p: int, f: int, c: F64, kk: F64, sin2
                  na: tuple[float, float, float], eta: Scalar, n1: Scalar, n2: Scalar, refl: float,
                  entering: bool) -> None:
     """Every ray refracts (the common case)."""
-    _record(ev, r.ids, p, f, EVENT_REFRACT, c)
+    record(ev, r.ids, p, f, EVENT_REFRACT, c)
     pool, n = r.pool, r.n
     ct = np.sqrt(kk, out=kk)
     if math.isnan(refl):
@@ -302,14 +305,7 @@ def _refract_all(r: Rays, ev: EventArrays, p: int, f: int, c: F64, kk: F64, sin2
         if na[i] != 0.0:
             new[i] += np.multiply(gam, na[i], out=ct)
     r.d = new
-    if entering:
-        r.medium.fill(p)
-        r.last.fill(-1)
-        r.uniform = (p, -1)
-    else:
-        r.medium.fill(-1)
-        r.last.fill(p)
-        r.uniform = (-1, p)
+    r.crossed(p, entering=entering)
     return None
 
 
@@ -349,7 +345,7 @@ def _mixed(r: Rays, ev: EventArrays, p: int, f: int, role: int, c: F64, kk: F64,
         kind = np.where(tir, EVENT_TIR, np.where(part, EVENT_PARTIAL, EVENT_REFRACT))
     ts_all = np.where(tir, rs_tir, np.where(part, rs_part, ts))
     tp_all = np.where(tir, rp_tir, np.where(part, rp_part, tp))
-    _record(ev, r.ids, p, f, kind, c)
+    record(ev, r.ids, p, f, kind, c)
     rotate(r, na, ts_all, tp_all, sin2)
     r.d = np.where(reflect, reflected, refracted)
     if role == ROLE_REFRACT:

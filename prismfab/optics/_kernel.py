@@ -13,6 +13,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from prismfab.model import CoatingType, Prism
+from prismfab.optics import _lane
 from prismfab.optics.solid import ROLE_CODES, ConvexSolid
 
 F64 = NDArray[np.float64]
@@ -222,11 +223,17 @@ def all_leave(tab: Tables, o: F64, d: F64, skip: int = -1) -> bool:
 
     With ``w`` the mid direction of the group, every point ``o + t d`` (t >= 0) of every ray has
     ``w . x >= min over the group of w . o`` as long as ``w . d > 0`` for all rays; bounding both
-    by the component ranges of ``o`` and ``d`` (interval arithmetic) costs four reductions. A
+    by the component ranges of ``o`` and ``d`` (interval arithmetic) costs one pass over them. A
     prism whose vertices all lie below that level (less a margin) cannot be met. False means
     "not proven" (the caller then runs the full search), never "some ray hits".
     """
-    d_lo, d_hi = d.min(axis=1), d.max(axis=1)
+    if _lane.available() and _lane.block_ok(o) and _lane.block_ok(d) and o.shape[1]:
+        ranges = _lane.box(o, d)
+        if ranges is None:
+            return False
+        o_lo, o_hi, d_lo, d_hi = ranges
+    else:
+        o_lo, o_hi, d_lo, d_hi = o.min(axis=1), o.max(axis=1), d.min(axis=1), d.max(axis=1)
     w = d_lo + d_hi
     norm = float(np.sqrt(w @ w))
     if not norm > 0.0:
@@ -234,7 +241,7 @@ def all_leave(tab: Tables, o: F64, d: F64, skip: int = -1) -> bool:
     w /= norm
     if float(np.minimum(w * d_lo, w * d_hi).sum()) <= 1e-6:
         return False
-    level = float(np.minimum(w * o.min(axis=1), w * o.max(axis=1)).sum()) - 1e-6
+    level = float(np.minimum(w * o_lo, w * o_hi).sum()) - 1e-6
     return all(q == skip or float(np.max(tab.corners[q] @ w)) < level for q in range(len(tab.solids)))
 
 

@@ -11,6 +11,8 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from prismfab.optics import _lane
+
 F64 = NDArray[np.float64]
 I64 = NDArray[np.int64]
 Jones = list[tuple[NDArray[np.generic], NDArray[np.generic]]]
@@ -152,19 +154,21 @@ class Rays:
         n = sl.stop - sl.start
         pool = Pool(n) if pool is None else pool
         o = pool.get("o", 3, n)
-        np.copyto(o, origins[sl].T)
         d = pool.fresh("d", None, 3, n)
-        np.copyto(d, directions[sl].T)
         u = pool.fresh("u", None, 3, n)
         jones: Jones = []
         e = None if fields is None else fields[sl]
-        if e is None:
+        if e is not None and _lane.available() and _lane_start(origins[sl], directions[sl], e, o, d, u, jones, pool):
+            pass  # copied and set up in one compiled pass
+        elif e is None:
+            np.copyto(o, origins[sl].T)
+            np.copyto(d, directions[sl].T)
             basis_rows(d, u)
             for m in range(2):
                 jones.append((pool.fresh(f"a{m}", None, n=n), pool.fresh(f"b{m}", None, n=n)))
                 jones[m][0].fill(1.0 - m)
                 jones[m][1].fill(float(m))
-        elif _has_phase(e) or not _linear_start(e, u, jones, pool):
+        elif _copy_rows(origins[sl], directions[sl], o, d) and (_has_phase(e) or not _linear_start(e, u, jones, pool)):
             basis_rows(d, u)
             v = _cross_rows(d, u)
             a = e[:, 0] * u[0] + e[:, 1] * u[1] + e[:, 2] * u[2]
@@ -179,6 +183,17 @@ class Rays:
         ids = slice(0, n) if local else sl
         return cls(ids=ids, o=o, d=d, u=u, jones=jones, medium=medium, last=last, opl=opl,
                    nglass=nglass, reflect_at=reflect_at, pool=pool, uniform=(-1, -1))
+
+    def crossed(self, prism: int, *, entering: bool) -> None:
+        """Every ray has just crossed a face of ``prism``: into it, or out of it into air."""
+        if entering:
+            self.medium.fill(prism)
+            self.last.fill(-1)
+            self.uniform = (prism, -1)
+        else:
+            self.medium.fill(-1)
+            self.last.fill(prism)
+            self.uniform = (-1, prism)
 
     @property
     def n(self) -> int:
@@ -240,14 +255,17 @@ class Rays:
         s: slice | NDArray[np.bool_] = slice(None) if sel is None else sel
         ids = self.global_ids(sel)
         d = self.d if d is None else d
-        out.o[:, ids] = self.o[:, s]
-        out.d[:, ids] = d[:, s]
         out.status[ids] = status
-        out.opl[ids] = self.opl[s]
         out.n_events[ids] = n_events
         real = len(self.jones) == 1 and not any(np.iscomplexobj(x) for x in self.jones[0])
-        if sel is None and isinstance(ids, slice) and real and out.fields is not None:
-            self._finish_linear(out, ids, d)
+        whole = sel is None and isinstance(ids, slice) and real and out.fields is not None
+        if whole and self._finish_lane(out, ids, d):  # type: ignore[arg-type]
+            return
+        out.o[:, ids] = self.o[:, s]
+        out.d[:, ids] = d[:, s]
+        out.opl[ids] = self.opl[s]
+        if whole:
+            self._finish_linear(out, ids, d)  # type: ignore[arg-type]
             return
         out.power[ids] = self.power(s)
         if out.fields is not None:
@@ -262,6 +280,20 @@ class Rays:
                     np.multiply(a, u[i], out=target[i])
                     target[i] += b * v[i]
 
+    def _finish_lane(self, out: Out, ids: slice, d: F64) -> bool:
+        """``_finish_linear`` with the points, directions and path, in one compiled pass.
+
+        False (nothing written) when the lane is off or cannot take the rows.
+        """
+        (a, b), u = self.jones[0], self.u
+        if not (_lane.available() and all(_lane.block_ok(x) for x in (self.o, d, u))
+                and all(_lane.row_ok(x) for x in (a, b, self.opl))):
+            return False
+        assert out.fields is not None
+        _lane.finish(self.o, d, u, a, b, self.opl, out.o[:, ids], out.d[:, ids], out.opl[ids],
+                     out.power[ids], out.fields[:, ids])
+        return True
+
     def _finish_linear(self, out: Out, ids: slice, d: F64) -> None:
         """Power and field of all rays with one real Jones pair, straight into ``out``.
 
@@ -269,6 +301,7 @@ class Rays:
         cross product taken component by component), in work rows instead of temporaries.
         """
         (a, b), u, n = self.jones[0], self.u, self.n
+        assert out.fields is not None
         tmp, tmp2 = self.pool.get("tmp", n=n), self.pool.get("tmp2", n=n)
         power = out.power[ids]
         np.multiply(a, a, out=power)
@@ -281,6 +314,31 @@ class Rays:
             np.multiply(a, u[i], out=field[i])
             field[i] += tmp
         out.fields[:, ids] = field
+
+
+def _copy_rows(origins: F64, directions: F64, o: F64, d: F64) -> bool:
+    """Bundle rows (n, 3) to component rows (3, n); True."""
+    np.copyto(o, origins.T)
+    np.copyto(d, directions.T)
+    return True
+
+
+def _lane_start(origins: F64, directions: F64, e: NDArray[np.complex128], o: F64, d: F64, u: F64,
+                jones: Jones, pool: Pool) -> bool:
+    """The compiled start of a chunk with real fields (same numbers as ``_linear_start``).
+
+    True when done (``jones`` holds the pair). False when the lane cannot take the rows, or a
+    field has a phase or is zero; ``o`` and ``d`` may then be filled already, which is harmless.
+    """
+    if not (origins.flags.c_contiguous and directions.flags.c_contiguous and e.flags.c_contiguous
+            and origins.dtype == directions.dtype == np.float64 and e.dtype == np.complex128):
+        return False
+    n = o.shape[1]
+    a, b = pool.fresh("a0", None, n=n), pool.fresh("b0", None, n=n)
+    if not _lane.start(origins, directions, e, o, d, u, a, b):
+        return False
+    jones.append((a, b))
+    return True
 
 
 def _has_phase(e: NDArray[np.complex128]) -> bool:
