@@ -5,10 +5,11 @@ and verification, vector refraction, Fresnel amplitudes with the s/p basis rotat
 optical path, event history) against a floor: a bare numpy kernel that knows the face sequence
 in advance and, for each face crossed, does only the ray-plane distance, the hit point and the
 vector Snell refraction, on the same rays in the same chunk size as the tracer. The floor is
-written the way the tracer's own hot path is (component rows, preallocated work rows with
-``out=``, zero normal components skipped), so the ratio measures the extra work of the tracer,
-not a difference in numpy style. It does no search, no TIR test, no amplitudes, no
-polarisation, no optical path and writes no event history.
+written as tightly as numpy allows (component rows, preallocated work rows with ``out=``, zero
+normal components skipped). It does no search, no TIR test, no amplitudes, no polarisation, no
+optical path and writes no event history. The tracer runs as installed: with its compiled lane
+where it was built (see DEVELOPERS.md, "The tracer's two lanes"), else numpy only
+(``PRISMFAB_NUMPY_ONLY=1`` forces that); the ``lane`` row says which.
 Both result modes of ``trace`` are measured on the same rays and each gets its own row with the
 floor and the ratio: ``record="full"`` (the event history of every ray, as measurement, ghost and
 sizing code use it; the previous result is kept alive while the next trace runs, as a caller
@@ -21,8 +22,8 @@ A third, informative row times a "physics floor": the floor kernel plus the arit
 tracer cannot leave out - Fresnel amplitudes, the s/p basis rotation of a linear field, the
 optical path, the whole-group check of the hit rectangle, and the final field and power - still
 on the known face sequence, with no search, no exception handling and no event record. Its
-ratio to the floor is what the required physics costs in numpy on this machine; the tracer's
-ratio to it is the cost of finding faces and keeping records.
+ratio to the floor is what the required physics costs in numpy on this machine: a bound for any
+numpy-only tracer, which the compiled lane passes.
 """
 
 from __future__ import annotations
@@ -34,6 +35,7 @@ import tracemalloc
 import numpy as np
 
 from prismfab.model import Polarization
+from prismfab.optics import _lane
 from prismfab.optics import closed_forms as cf
 from prismfab.optics.beam import sample_beam
 from prismfab.optics.solid import solid_of
@@ -283,6 +285,8 @@ def run() -> list[dict[str, object]]:
          "value": n_physics / t_physics, "unit": "1/s", "floor": floor_rate,
          "ratio": floor_rate / (n_physics / t_physics),
          "goal": "informative: the ratio the required physics alone costs in numpy"},
+        {"name": "trace lane (1 = compiled lane in use, 0 = numpy only)", "value": float(_lane.available()),
+         "unit": ""},
         {"name": "trace wall time, 3e6 rays, record=full", "value": t_full, "unit": "s"},
         {"name": "trace wall time, 3e6 rays, record=final", "value": t_final, "unit": "s"},
         {"name": "trace peak memory, 1e6 rays, record=full", "value": _peak_mb(system, "full"),

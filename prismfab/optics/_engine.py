@@ -48,6 +48,7 @@ class Predictor:
     def __init__(self, enabled: bool = True) -> None:
         self.enabled = enabled
         self.memory: dict[int, Key | None] = {}
+        self.lane: dict[tuple[Key, float, float], tuple[F64, F64] | None] = {}  # compiled-lane rows
 
 
 def search(tab: K.Tables, r: Rays, o: F64 | None = None, d: F64 | None = None) -> tuple[F64, I64, I64]:
@@ -204,7 +205,7 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
             hit = ev[3][:, r.ids] if isinstance(r.ids, slice) else np.empty((3, n))
         else:
             hit = np.empty((3, n))
-        lane = _lane_inputs(tab, r, key, k) if ev is not None else None
+        lane = _lane_inputs(tab, r, key, k, predictor.lane) if ev is not None else None
         if lane is not None:  # verify and interact in one pass; unverified rays left untouched
             assert ev is not None
             if isinstance(r.ids, slice):
@@ -284,38 +285,48 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
     return True
 
 
-def _lane_inputs(tab: K.Tables, r: Rays, key: Key, k: int) -> tuple[F64, F64] | None:
+def _lane_inputs(tab: K.Tables, r: Rays, key: Key, k: int,
+                 cache: dict[tuple[Key, float, float], tuple[F64, F64] | None]) -> tuple[F64, F64] | None:
     """(face, optics) rows for the compiled lane, or None when this event is not for it.
 
     The lane takes a refracting face met by one-wavelength rays with real fields, from a known
-    medium, with no forced reflection at this event and (in air) no other prism to clear.
+    medium, with no forced reflection at this event and (in air) no other prism to clear. The
+    rows of a face depend only on the key and the two indices (``cache``).
     """
-    if not _lane.available() or r.n == 0:
+    if not _lane.available() or r.n == 0 or r.nglass.shape[1] != 1 or not 1 <= len(r.jones) <= 2:
         return None
     m, last, p, f = key
-    g = int(tab.face_base[p]) + f
-    if int(tab.g_roles[g]) != K.ROLE_REFRACT or r.nglass.shape[1] != 1 or not 1 <= len(r.jones) <= 2:
-        return None
     if r.reflect_at is not None and bool((r.reflect_at == k).any()):
         return None
     if r.uniform is None:
         r.uniform = _uniform(r)
     if r.uniform is None or r.uniform[0] != m or (m < 0 and r.uniform[1] != last):
         return None
-    if m < 0 and any(q not in (p, last) and q not in tab.g_behind[g] for q in range(len(tab.solids))):
-        return None
     rows = [r.opl] + [x for pair in r.jones for x in pair]
     if not (all(_lane.row_ok(x, writeable=True) for x in rows) and _lane.block_ok(r.o)
             and _lane.block_ok(r.d, writeable=True) and _lane.block_ok(r.u, writeable=True)):
+        return None
+    n1 = _index(r, m)
+    n2 = _index(r, p) if m < 0 else 1.0
+    assert isinstance(n1, float) and isinstance(n2, float)
+    if (key, n1, n2) not in cache:
+        cache[(key, n1, n2)] = _lane_rows(tab, key, n1, n2)
+    return cache[(key, n1, n2)]
+
+
+def _lane_rows(tab: K.Tables, key: Key, n1: float, n2: float) -> tuple[F64, F64] | None:
+    """The lane's face and optics rows of face ``key`` (see ``_lanec.c``), None if not for it."""
+    m, last, p, f = key
+    g = int(tab.face_base[p]) + f
+    if int(tab.g_roles[g]) != K.ROLE_REFRACT:
+        return None
+    if m < 0 and any(q not in (p, last) and q not in tab.g_behind[g] for q in range(len(tab.solids))):
         return None
     rect = tab.g_rect[g]
     assert rect is not None
     e, lo_e, hi_e, h, lo_h, hi_h = rect
     solid = tab.solids[p]
     face = np.array([*solid.normals[f], solid.offsets_mm[f], *e, lo_e, hi_e, *h, lo_h, hi_h], float)
-    n1 = _index(r, m)
-    n2 = _index(r, p) if m < 0 else 1.0
-    assert isinstance(n1, float) and isinstance(n2, float)
     refl = float(tab.g_reflectance[g])
     amp = -1.0 if math.isnan(refl) else math.sqrt(1.0 - refl)
     optics = np.array([1.0 if m < 0 else 0.0, n1, n2, n1 / n2, amp, K.EPS_MM, FAST_SIN2, OBLIQUE,

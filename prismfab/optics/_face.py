@@ -204,10 +204,13 @@ def _fresnel(c: F64, ct: F64, n1: Scalar, n2: Scalar, r: Rays) -> tuple[F64, F64
     root = np.multiply(q1, q2, out=pool.get("root", n=n))
     np.sqrt(root, out=root)
     root *= 2.0
-    ts = np.add(q1, q2, out=pool.get("ts", n=n))
-    np.divide(root, ts, out=ts)
-    tp = np.add(p1, p2, out=pool.get("tp", n=n))
-    np.divide(root, tp, out=tp)
+    # one division for both: g = root / ((q1 + q2)(p1 + p2)), ts = g (p1 + p2), tp = g (q1 + q2)
+    sum_s = np.add(q1, q2, out=pool.get("sum_s", n=n))
+    sum_p = np.add(p1, p2, out=pool.get("sum_p", n=n))
+    g = np.multiply(sum_s, sum_p, out=pool.get("g", n=n))
+    np.divide(root, g, out=g)
+    ts = np.multiply(g, sum_p, out=pool.get("ts", n=n))
+    tp = np.multiply(g, sum_s, out=pool.get("tp", n=n))
     return ts, tp
 
 
@@ -320,8 +323,10 @@ def _mixed(r: Rays, ev: EventArrays, p: int, f: int, role: int, c: F64, kk: F64,
     q1, q2, p1, p2 = n1 * c, n2 * ct, n2 * c, n1 * ct
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         root = 2.0 * np.sqrt(q1 * q2)
-        ts = np.where(tir, 0.0, math.sqrt(1.0 - refl) if coated else root / (q1 + q2))
-        tp = np.where(tir, 0.0, math.sqrt(1.0 - refl) if coated else root / (p1 + p2))
+        sum_s, sum_p = q1 + q2, p1 + p2
+        g = root / (sum_s * sum_p)  # as in _fresnel, so a ray gets the same numbers in any group
+        ts = np.where(tir, 0.0, math.sqrt(1.0 - refl) if coated else g * sum_p)
+        tp = np.where(tir, 0.0, math.sqrt(1.0 - refl) if coated else g * sum_s)
         rs_part = -math.sqrt(refl) if coated else (q1 - q2) / (q1 + q2)
         rp_part = math.sqrt(refl) if coated else (p1 - p2) / (p1 + p2)
         if tir.any():  # complex only when a phase appears

@@ -102,8 +102,10 @@ static inline __attribute__((always_inline)) ptrdiff_t lane(
         /* power-normalised Fresnel amplitudes, or the coating's */
         const double q1 = c * n1, q2 = ct * n2, r1 = c * n2, r2 = ct * n1;
         const double root = sqrt(q1 * q2) * 2.0;
-        const double ts = fresnel ? root / (q1 + q2) : amp;
-        const double tp = fresnel ? root / (r1 + r2) : amp;
+        const double sum_s = q1 + q2, sum_p = r1 + r2;
+        const double g = root / (sum_s * sum_p);  /* one division for both, as _fresnel */
+        const double ts = fresnel ? g * sum_p : amp;
+        const double tp = fresnel ? g * sum_s : amp;
         /* s = unit(na x d), as _cross_const builds it */
         const double s0 = na1 * d2 - na2 * d1, s1 = na2 * d0 - na0 * d2, s2 = na0 * d1 - na1 * d0;
         /* |na x d|: sqrt(sin2) well off the normal, else from the cross product (far: the caller

@@ -55,9 +55,11 @@ class Out:
         only the rays before the chunk need the no-event values.
         """
         while len(self.events) <= k:
+            n = self.n
+            small = np.empty(5 * n, np.uint8)  # prism, face, kind in one block (large pages apply)
             self.events.append((
-                np.empty(self.n, np.int16), np.empty(self.n, np.int16),
-                np.empty(self.n, np.int8), np.empty((3, self.n)), np.empty(self.n),
+                small[:2 * n].view(np.int16), small[2 * n:4 * n].view(np.int16), small[4 * n:].view(np.int8),
+                np.empty((3, n)), np.empty(n),
             ))
             self._ready.append(0)
         ev = self.events[k]
