@@ -71,7 +71,7 @@ def test_resolve_slides_a_length_text_along_its_line() -> None:
     outline = Polyline(((0.0, 0.0), (60.0, 0.0), (60.0, 30.0), (0.0, 30.0)), closed=True,
                        layer=Layer.OUTLINE)
     length = AlignedDim((60.0, 30.0), (0.0, 30.0), -9.0, 12.0, 5.0, "12.00 ±0.10", (30.0, 41.0))
-    letter = Circle((30.0, 41.0), 0.8 * TEXT_H, layer=Layer.ANNOTATION)  # a fixed box in the way
+    letter = Circle((30.0, 42.5), 0.8 * TEXT_H, layer=Layer.ANNOTATION)  # a fixed box in the way
     ents, left = overlap.resolve([outline, letter, length], TEXT_H)
     assert left == 0 and overlap.collisions(ents, TEXT_H) == []
     moved = ents[2]
@@ -122,9 +122,66 @@ def test_unresolved_collisions_move_the_drawing_to_the_larger_sheet(monkeypatch:
     clean = layout_part(part, sample_info(), template="a4-landscape")
     real = overlap.resolve
     monkeypatch.setattr(overlap, "resolve",
-                        lambda e, th, limit=None: (real(e, th, limit=limit)[0], 1))
+                        lambda e, th, limit=None, memo=None: (real(e, th, limit=limit)[0], 1))
     crowded = layout_part(part, sample_info(), template="a4-landscape")
     assert crowded.template == "a3-landscape"
     assert crowded.scale >= clean.scale
     scales = [n / d for n, d in layout.ISO_5455_SCALES]
     assert crowded.scale in scales
+
+
+def test_a_thin_line_through_a_text_is_counted() -> None:
+    """A dimension's extension line or a leader leg running through another dimension's text
+    is a collision; a dimension's own line under its own text is not (ISO 129-1: dimension
+    text is not crossed by any line)."""
+    from prismfab.drawing.sheet import Leader, Line
+
+    own = AlignedDim((0.0, 0.0), (40.0, 0.0), -9.0, 8.0, 5.0, "8.00 ±0.10", (20.0, 11.75))
+    assert overlap.collisions([own], TEXT_H) == []
+    through = Line((20.0, 5.0), (20.0, 20.0), layer=Layer.DIMENSION)  # vertical, across the text
+    found = overlap.collisions([own, through], TEXT_H)
+    assert found == ["Line 'Line' runs through AlignedDim '8.00 ±0.10'"]
+    beside = Line((38.0, 5.0), (38.0, 20.0), layer=Layer.DIMENSION)  # clear of the text box
+    assert overlap.collisions([own, beside], TEXT_H) == []
+    leg = Leader(((0.0, 12.0), (40.0, 12.0)), ("note",), (60.0, 14.0), 2.5, arrow=False)
+    assert any("runs through" in f for f in overlap.collisions([own, leg], TEXT_H))
+
+
+def test_resolve_slides_a_text_off_a_crossing_line() -> None:
+    """A length text crossed by a thin line moves along its dimension line until clear."""
+    own = AlignedDim((0.0, 0.0), (40.0, 0.0), -9.0, 8.0, 5.0, "8.00 ±0.10", (20.0, 11.75))
+    from prismfab.drawing.sheet import Line
+
+    through = Line((20.0, 5.0), (20.0, 20.0), layer=Layer.DIMENSION)
+    ents, left = overlap.resolve([through, own], TEXT_H)
+    assert left == 0 and overlap.collisions(ents, TEXT_H) == []
+    moved = ents[1]
+    assert isinstance(moved, AlignedDim) and abs(moved.text_pos[1] - 11.75) < 1e-9
+    assert abs(moved.text_pos[0] - 20.0) > 1.0
+
+
+def test_a_dimension_crossed_by_its_own_extension_line_is_counted() -> None:
+    """A length text standing across one of its own extension lines is a collision; on its own
+    dimension line between them, or beyond one on the line run on, it is not (ISO 129-1: the
+    value is not crossed by any line)."""
+    between = AlignedDim((0.0, 0.0), (40.0, 0.0), 9.0, 8.0, 5.0, "8.00 ±0.10", (20.0, 11.75))
+    across = AlignedDim((0.0, 0.0), (40.0, 0.0), 9.0, 8.0, 5.0, "8.00 ±0.10", (40.0, 11.75))
+    beyond = AlignedDim((0.0, 0.0), (40.0, 0.0), 9.0, 8.0, 5.0, "8.00 ±0.10", (55.0, 11.75))
+    assert overlap.collisions([between], TEXT_H) == []
+    assert overlap.collisions([beyond], TEXT_H) == []
+    assert overlap.collisions([across], TEXT_H) == [
+        "AlignedDim '8.00 ±0.10' is crossed by its own extension line"]
+
+
+def test_resolve_moves_a_text_wider_than_its_line_beyond_the_far_end() -> None:
+    """A text too wide for its dimension line, blocked beyond one end, goes beyond the other
+    end rather than across an extension line (common practice)."""
+    short = AlignedDim((0.0, 0.0), (10.0, 0.0), 9.0, 2.0, 5.0, "2.00 ±0.10", (-17.0, 11.75))
+    assert overlap.collisions([short], TEXT_H) == []  # beyond its start, on the line run on
+    from prismfab.drawing.sheet import Text
+
+    block = Text((-30.0, 12.0), "NOTE " * 3, TEXT_H, 0.0, "center", "middle")  # a note there
+    ents, left = overlap.resolve([block, short], TEXT_H)
+    assert left == 0 and overlap.collisions(ents, TEXT_H) == []
+    moved = ents[1]
+    assert isinstance(moved, AlignedDim) and moved.text_pos[0] > 10.0

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from prismfab.drawing import callouts, dims, fmt
 from prismfab.drawing.geom import add, dist, mul, sub, unit
@@ -34,6 +34,11 @@ DATUM_EXTRA_MM = 12.0  # datum B's face: dimensions stand beyond its datum symbo
 RAY_LEAD_MM = 12.0  # outside lead-in and lead-out of the ray path on paper
 VIRTUAL_REACH_MM = 40.0  # a theoretical sharp corner farther off (paper) is shown by a parallel
 UNBOUNDED = (-1.0e5, -1.0e5, 1.0e5, 1.0e5)
+DATUM_SPOTS = tuple((f, stem) for stem in (4.0, 2.5, 6.0, 8.0)
+                    for f in (0.2, 0.3, 0.15, 0.4, 0.5, 0.6, 0.7, 0.8))
+"""Where datum B's triangle may stand on its face (fraction of the face) and its stem length."""
+DATUM_REACH_MM = (4.0, 7.0, 10.0, 14.0, 18.0, 22.0, 26.0)
+"""Else how far beyond a corner on the face extended (paper mm), nearest first."""
 
 
 def note_height_mm(dimension_text_mm: float) -> float:
@@ -63,6 +68,11 @@ class Started:
     entities: list[Entity]
     pts: tuple[P2, ...] = ()
     ray: tuple[P2, ...] = ()
+    clean: bool = True
+    """Datum B found free paper on its face (or the face extended)."""
+    memo: dict = field(default_factory=dict)  # type: ignore[type-arg]
+    """The collision pass's fruitless searches (``overlap.resolve(memo=...)``), kept between
+    the pass before the leaders and the one after them."""
 
 
 def main_group(part: Part, scale: float, *, text_h: float, decimal_comma: bool
@@ -73,8 +83,15 @@ def main_group(part: Part, scale: float, *, text_h: float, decimal_comma: bool
     return out
 
 
-def main_start(part: Part, scale: float, *, text_h: float, decimal_comma: bool) -> Started:
-    """The principal section with its dimensions, angles and datum B (no leaders yet)."""
+def main_start(part: Part, scale: float, *, text_h: float, decimal_comma: bool,
+               letter_last: bool = False) -> Started:
+    """The principal section with its dimensions, angles and datum B (no leaders yet).
+
+    Face letters go first, so dimensions keep clear of them. Where datum B then finds no free
+    spot on its face or the face extended (a short face, its letter between the arcs of its two
+    angles), the section is laid out again with that face's letter placed after datum B
+    (``letter_last``): the letter moves aside or out on a leader, the datum symbol keeps the face.
+    """
     placer = Placer(UNBOUNDED)
     pts, outline = main_outline(part, ViewFrame(scale, (0.0, 0.0)), placer)
     out: list[Entity] = list(outline)
@@ -92,12 +109,24 @@ def main_start(part: Part, scale: float, *, text_h: float, decimal_comma: bool) 
             placer.add_segment(pts[(c.first + 1) % n], add(corner, mul(da, 12.0)))
             placer.add_segment(pts[c.second], sub(corner, mul(db, 12.0)))
     out += _apertures(part, pts, scale)
-    out += _labels(part, pts, text_h, placer)
+    late = datum if letter_last else None
+    out += _labels(part, pts, text_h, placer, skip=late)
     out += _lengths(part, pts, scale, text_h, placer, datum, plan, decimal_comma)
     out += _cross_angles(part, pts, text_h, placer, plan)
     out += _angles(part, pts, text_h, placer, plan)
-    out += _datum_b(part, pts, text_h, placer, datum)
-    return Started(part, scale, text_h, decimal_comma, placer, out, pts, ray)
+    accept = None
+    if late is not None:
+        def accept(trial: Placer, symbol: list[Entity]) -> bool:  # its face's letter finds room
+            return _labels(part, pts, text_h, trial, only=late, fallback=False) is not None
+    symbol, clean = _datum_b(part, pts, text_h, placer, datum, accept)
+    if not clean and not letter_last:
+        again = main_start(part, scale, text_h=text_h, decimal_comma=decimal_comma, letter_last=True)
+        if again.clean:
+            return again
+    out += symbol
+    if late is not None:
+        out += _labels(part, pts, text_h, placer, only=late) or []
+    return Started(part, scale, text_h, decimal_comma, placer, out, pts, ray, clean=clean)
 
 
 def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None = None
@@ -109,7 +138,9 @@ def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None
         keep_going: called with each stage's new entities; when it returns False the group is
             abandoned (None is returned), e.g. because the views already overflow the sheet.
     """
-    out = list(g.entities)
+    out = _cleared(g)
+    if keep_going is not None and not keep_going(out):
+        return None
     stages: list[Callable[[], list[Entity] | tuple[Entity, ...]]] = [
         lambda: _edge_callouts(g.part, g.pts, g.text_h, g.placer),
         lambda: _perpendicularity(g.part, g.pts, g.text_h, g.placer, g.decimal_comma),
@@ -122,6 +153,29 @@ def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None
         out += new
         if keep_going is not None and not keep_going(new):
             return None
+    return out
+
+
+def _cleared(g: Started) -> list[Entity]:
+    """The started entities with their text collisions cleared (``overlap.resolve``) before
+    leaders and tolerance frames are placed, so these keep clear of where a dimension moved
+    to."""
+    return _resolved(g.entities, g.text_h, g.placer, g.memo)
+
+
+def _resolved(ents: list[Entity], text_h: float, placer: Placer, memo: dict) -> list[Entity]:  # type: ignore[type-arg]
+    """The entities with their text collisions cleared (``overlap.resolve``); the placer learns
+    the new text boxes and lines of what moved (the old ones stay reserved)."""
+    from prismfab.drawing import overlap
+
+    out, _ = overlap.resolve(ents, text_h, memo=memo)
+    for old, new in zip(ents, out, strict=True):
+        if new is not old:
+            box, lines = overlap.footprint(new, text_h)
+            if box is not None:
+                placer.add_box(box)
+            for p, q in lines:
+                placer.add_segment(p, q)
     return out
 
 
@@ -215,16 +269,20 @@ def _apertures(part: Part, pts: tuple[P2, ...], scale: float) -> list[Entity]:
     return out
 
 
-def _labels(part: Part, pts: tuple[P2, ...], th: float, placer: Placer) -> list[Entity]:
+def _labels(part: Part, pts: tuple[P2, ...], th: float, placer: Placer, *, skip: int | None = None,
+            only: int | None = None, fallback: bool = True) -> list[Entity] | None:
     """Face letters in circles outside the section, beside the middle of their face.
 
     The letter stands just off the face (inside the first dimension level) near its middle; where
     that spot is taken (ray path, chain lines) or the face is too short, farther out with a short
-    leader to the face's middle.
+    leader to the face's middle. ``skip`` leaves one face's letter out, ``only`` places just it;
+    without ``fallback``, None when a letter finds no free spot (else it stands 7 mm out).
     """
     out: list[Entity] = []
     r = 0.8 * th
     for i, f in enumerate(part.faces):
+        if i == skip or (only is not None and i != only):
+            continue
         a, u, n, length = face_frame(pts, i)
         near = r * (abs(n[0]) + abs(n[1])) + 0.8  # the circle's box just clears the face line
         spot: P2 | None = None
@@ -239,26 +297,42 @@ def _labels(part: Part, pts: tuple[P2, ...], th: float, placer: Placer) -> list[
         if spot is not None:
             out += callouts.face_label(spot, f.label, text_h=th, placer=placer)
             continue
-        foot = add(a, mul(u, 0.5 * length))
-        out += _label_with_leader(foot, n, f.label, th, placer)
+        feet = [add(a, mul(u, k * length)) for k in LEADER_FEET]
+        led = _label_with_leader(feet, n, f.label, th, placer, fallback=fallback)
+        if led is None:
+            return None
+        out += led
     return out
 
 
-def _label_with_leader(foot: P2, n: P2, letter: str, th: float, placer: Placer) -> list[Entity]:
+LEADER_FEET = (0.5, 0.35, 0.65, 0.25, 0.75)
+"""Where on its face a letter's leader may start (fraction of the face), middle first."""
+
+
+def _label_with_leader(feet: list[P2], n: P2, letter: str, th: float, placer: Placer, *,
+                       fallback: bool = True) -> list[Entity] | None:
+    """A face letter out on a short leader from its face (from the middle if it can), clear of
+    text, lines and the view; at the middle, 7 mm out, when nothing is free (None without
+    ``fallback``)."""
     r = 0.8 * th
-    for d in (7.0, 10.0, 13.0, 17.0, 22.0, 28.0):
-        for turn in (0.0, 0.4, -0.4, 0.8, -0.8):
-            c_, s_ = math.cos(turn), math.sin(turn)
-            direction = (n[0] * c_ - n[1] * s_, n[0] * s_ + n[1] * c_)
-            c = add(foot, mul(direction, d))
-            box = (c[0] - r, c[1] - r, c[0] + r, c[1] + r)
-            start = add(foot, mul(direction, 0.4))
-            end = add(foot, mul(direction, d - r))
-            if (placer.free(box) and not placer.crosses_segments(start, end)
-                    and not placer.crosses_region(start, end)):
-                placer.add_segment(foot, end)
-                return [Line(foot, end, layer=Layer.ANNOTATION),
-                        *callouts.face_label(c, letter, text_h=th, placer=placer)]
+    for foot in feet:
+        for d in (7.0, 10.0, 13.0, 17.0, 22.0, 28.0):
+            for turn in (0.0, 0.4, -0.4, 0.8, -0.8):
+                c_, s_ = math.cos(turn), math.sin(turn)
+                direction = (n[0] * c_ - n[1] * s_, n[0] * s_ + n[1] * c_)
+                c = add(foot, mul(direction, d))
+                box = (c[0] - r, c[1] - r, c[0] + r, c[1] + r)
+                start = add(foot, mul(direction, 0.4))
+                end = add(foot, mul(direction, d - r))
+                if (placer.free(box) and not placer.crosses_segments(start, end)
+                        and not placer.hits_box(start, end)
+                        and not placer.crosses_region(start, end)):
+                    placer.add_segment(foot, end)
+                    return [Line(foot, end, layer=Layer.ANNOTATION),
+                            *callouts.face_label(c, letter, text_h=th, placer=placer)]
+    if not fallback:
+        return None
+    foot = feet[0]
     c = add(foot, mul(n, 7.0))
     return [Line(foot, add(foot, mul(n, 7.0 - r)), layer=Layer.ANNOTATION),
             *callouts.face_label(c, letter, text_h=th, placer=placer)]
@@ -381,18 +455,57 @@ def _lengths(part: Part, pts: tuple[P2, ...], scale: float, th: float, placer: P
     return out
 
 
-def _datum_b(part: Part, pts: tuple[P2, ...], th: float, placer: Placer, datum: int | None
-             ) -> list[Entity]:
+def _datum_b(part: Part, pts: tuple[P2, ...], th: float, placer: Placer, datum: int | None,
+             accept: Callable[[Placer, list[Entity]], bool] | None = None
+             ) -> tuple[list[Entity], bool]:
+    """ISO 5459 datum B on its face: the first spot (``DATUM_SPOTS``, then on the face extended
+    beyond a corner) where it stands clear of text and lines (and, with ``accept``, for which
+    ``accept`` passes a trial copy of the placer holding the symbol, and the symbol's entities);
+    False when none was
+    (it then stands at the first spot)."""
     if datum is None:
-        return []
+        return [], True
     out: list[Entity] = []
+    clean = True
     for letter, what in part.datums:
         low = what.lower()
         if "end face" in low or "bottom" in low:
             continue
         a, u, nrm, length = face_frame(pts, datum)
-        out += callouts.datum_symbol(add(a, mul(u, 0.2 * length)), u, nrm, letter, text_h=th,
-                                     placer=placer)
+        b = add(a, mul(u, length))
+        spots = [(add(a, mul(u, f * length)), stem, None) for f, stem in DATUM_SPOTS]
+        spots += [(add(corner, mul(d, reach)), stem, corner) for reach in DATUM_REACH_MM
+                  for corner, d in ((b, u), (a, mul(u, -1.0))) for stem in (4.0, 2.5, 6.0)]
+        spot = spots[0]
+        for trial, stem_mm, at in spots:  # first spot where it stands clear of text and lines
+            if at is not None and placer.hits_box(at, trial):
+                continue  # on the face extended beyond a corner: that line runs through text
+            if not callouts.datum_fits(trial, u, nrm, text_h=th, placer=placer, stem_mm=stem_mm):
+                continue
+            if accept is not None:
+                trial_placer = placer.copy()
+                if not accept(trial_placer, _datum_symbol((trial, stem_mm, at), u, nrm, letter, th,
+                                                          trial_placer)):
+                    continue
+            spot = (trial, stem_mm, at)
+            break
+        else:
+            clean = False
+        out += _datum_symbol(spot, u, nrm, letter, th, placer)
+    return out, clean
+
+
+def _datum_symbol(spot: tuple[P2, float, P2 | None], u: P2, nrm: P2, letter: str, th: float,
+                  placer: Placer) -> list[Entity]:
+    """The datum symbol at a spot (foot, stem length, the corner beyond which it stands on the
+    face extended or None), registered on the placer."""
+    foot, stem, corner = spot
+    out: list[Entity] = []
+    if corner is not None:  # ISO 5459: on the outline extended, a thin line to the triangle
+        d = unit(sub(foot, corner))
+        out.append(_construction(add(corner, mul(d, 1.0)), add(foot, mul(d, 2.0))))
+        placer.add_segment(corner, add(foot, mul(d, 2.0)))
+    out += callouts.datum_symbol(foot, u, nrm, letter, text_h=th, placer=placer, stem_mm=stem)
     return out
 
 

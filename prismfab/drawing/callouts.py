@@ -12,7 +12,7 @@ from prismfab.drawing.sheet import (
 )
 from prismfab.drawing.views import arrowhead
 
-__all__ = ["datum_symbol", "face_label", "find_spot", "leader", "ray_path", "tolerance_frame"]
+__all__ = ["datum_fits", "datum_symbol", "face_label", "find_spot", "leader", "ray_path", "tolerance_frame"]
 
 P2 = tuple[float, float]
 
@@ -25,22 +25,40 @@ def face_label(centre: P2, letter: str, *, text_h: float, placer: Placer) -> tup
             Text(centre, letter, text_h, h_align="center", v_align="middle", layer=Layer.ANNOTATION))
 
 
-def datum_symbol(foot: P2, along: P2, outward: P2, letter: str, *, text_h: float, placer: Placer,
-                 stem_mm: float = 4.0) -> tuple[Entity, ...]:
-    """ISO 5459 datum feature: filled triangle on the feature, stem, boxed letter."""
+def _datum_geometry(foot: P2, along: P2, outward: P2, text_h: float, stem_mm: float
+                    ) -> tuple[tuple[P2, P2, P2], P2, P2, P2, float]:
+    """Triangle, apex, stem end, box centre and box side of a datum symbol (paper mm)."""
     half = 1.5
     apex = add(foot, mul(outward, 2.6))
     tri = (add(foot, mul(along, half)), sub(foot, mul(along, half)), apex)
     side = text_h + 2.0
     stem_end = add(apex, mul(outward, stem_mm))
     centre = add(stem_end, mul(outward, side / 2))
-    box = ((centre[0] - side / 2, centre[1] - side / 2), (centre[0] + side / 2, centre[1] - side / 2),
-           (centre[0] + side / 2, centre[1] + side / 2), (centre[0] - side / 2, centre[1] + side / 2))
     # the stem meets the square at the middle of the side facing the feature
     if abs(outward[0]) > abs(outward[1]):
         stem_end = (centre[0] - math.copysign(side / 2, outward[0]), centre[1])
     else:
         stem_end = (centre[0], centre[1] - math.copysign(side / 2, outward[1]))
+    return tri, apex, stem_end, centre, side
+
+
+def datum_fits(foot: P2, along: P2, outward: P2, *, text_h: float, placer: Placer,
+               stem_mm: float = 4.0) -> bool:
+    """True when a datum symbol at ``foot`` stands on free paper: its letter box is free of text
+    and lines, its stem runs through no text and crosses no line."""
+    _, apex, stem_end, centre, side = _datum_geometry(foot, along, outward, text_h, stem_mm)
+    box = (centre[0] - side / 2, centre[1] - side / 2, centre[0] + side / 2, centre[1] + side / 2)
+    grown = (box[0] - 0.3, box[1] - 0.3, box[2] + 0.3, box[3] + 0.3)
+    return (placer.free(grown) and not placer.hits_box(apex, stem_end)
+            and not placer.crosses_segments(apex, stem_end))
+
+
+def datum_symbol(foot: P2, along: P2, outward: P2, letter: str, *, text_h: float, placer: Placer,
+                 stem_mm: float = 4.0) -> tuple[Entity, ...]:
+    """ISO 5459 datum feature: filled triangle on the feature, stem, boxed letter."""
+    tri, apex, stem_end, centre, side = _datum_geometry(foot, along, outward, text_h, stem_mm)
+    box = ((centre[0] - side / 2, centre[1] - side / 2), (centre[0] + side / 2, centre[1] - side / 2),
+           (centre[0] + side / 2, centre[1] + side / 2), (centre[0] - side / 2, centre[1] + side / 2))
     placer.add_box((centre[0] - side / 2, centre[1] - side / 2, centre[0] + side / 2,
                     centre[1] + side / 2))
     placer.add_segment(apex, stem_end)
@@ -60,6 +78,8 @@ def _block(lines: tuple[str, ...], text_h: float) -> tuple[float, float]:
 PREFER_DEG = (45, 135, -45, -135, 60, 120, -60, -120, 30, 150, -30, -150, 75, 105, -75, -105, 15,
               165, -15, -165)
 DISTANCES_MM = (9, 13, 18, 24, 31, 40, 50, 62, 75, 90)
+FAR_MM = (110, 130, 150)
+"""Leader lengths tried for a reference label before it is left to the notes."""
 
 
 def _trials(tip: P2, w: float, h: float, text_h: float, distances: tuple[float, ...],
@@ -177,8 +197,14 @@ def tolerance_frame(tip: P2, cells: tuple[str, ...], *, text_h: float, placer: P
         return ()
     elbow, end, right, box = spot
     placer.add_box(box)
+    # The frame stands inside the free box (0.6 mm clear of its sides), the shoulder runs on to it.
+    x0 = box[0] + 0.6 if right else box[2] - 0.6 - w
+    on = (x0 if right else x0 + w, end[1])
+    if placer.crosses_segments(end, on):  # the shoulder may not run on: frame at its end
+        x0 = end[0] if right else end[0] - w
+        on = end
+    end = on
     placer.add_path([tip, elbow, end])
-    x0 = end[0] if right else end[0] - w
     y0 = box[3] - 0.6 - h
     out: list[Entity] = [Leader((tip, elbow, end), (), (x0, y0 + h), text_h, arrow=True)]
     x = x0
@@ -241,10 +267,15 @@ def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, p
         placer.add_box((mark_at[0] - 3.2, mark_at[1] - 3.2, mark_at[0] + 3.2, mark_at[1] + 3.2))
     small = round(text_h * 0.72, 1)
     # The label hangs from an outside lead (in or out) so its leg never crosses the section.
-    tips = [add(points[k], mul(sub(points[j], points[k]), f)) for f in (0.12, 0.3, 0.5)
-            for k, j in ((0, 1), (-1, -2))]
-    for tip in tips:
-        lead = leader(tip, ("ray path for reference",), text_h=small, placer=placer, arrow=False)
+    # Nearest the outer ends first; a tip under a reserved box (the polarisation mark) is
+    # skipped; then farther out, with a longer leg.
+    tips = [add(points[k], mul(sub(points[j], points[k]), f))
+            for f in (0.12, 0.3, 0.5, 0.05, 0.65, 0.8, 0.9) for k, j in ((0, 1), (-1, -2))]
+    tips = [t for t in tips if not placer.hits_box(t, t)]
+    for distances in (DISTANCES_MM, FAR_MM):
+        lead = next((lead for tip in tips if (lead := leader(
+            tip, ("ray path for reference",), text_h=small, placer=placer, arrow=False,
+            distances=distances)) is not None), None)
         if lead is not None:
             out.append(lead)
             break

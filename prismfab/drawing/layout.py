@@ -63,7 +63,8 @@ def _finish(main_started: annotate.Started, side_started: annotate.Started, text
     main = annotate.main_finish(main_started, keep_going=keep_going)
     if main is None:
         return None
-    main, main_left = overlap.resolve(main, text_h, limit=_room_left(main, sb, text_h, room))
+    main, main_left = overlap.resolve(main, text_h, limit=_room_left(main, sb, text_h, room),
+                                      memo=main_started.memo)
     mb = bbox(main, text_h)
     assert mb is not None and sb is not None  # both views always draw an outline
     # The second view sees the part from +X: first angle puts it left of the section, third right.
@@ -128,7 +129,9 @@ def _least_size(main: annotate.Started, side: annotate.Started, text_h: float
 def choose_scale(part: Part, area_w_mm: float, area_h_mm: float, *, text_h: float = 3.5,
                  projection: str = "first-angle", decimal_comma: bool = False) -> tuple[float, str]:
     """Largest ISO 5455 scale at which both views with their dimensions fit the view area."""
-    return _fit(part, area_w_mm, area_h_mm, text_h, projection, decimal_comma)[:2]  # type: ignore[return-value]
+    found = _fit(part, area_w_mm, area_h_mm, text_h, projection, decimal_comma)
+    assert found is not None  # without a larger sheet the smallest scale is always laid out
+    return found[:2]  # type: ignore[return-value]
 
 
 LARGER_SHEET = {"a4-landscape": "a3-landscape"}
@@ -136,9 +139,12 @@ LARGER_SHEET = {"a4-landscape": "a3-landscape"}
 
 
 def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projection: str,
-         decimal_comma: bool) -> tuple[float, str, list[Entity], Rect, bool]:
+         decimal_comma: bool, *, larger: bool = False
+         ) -> tuple[float, str, list[Entity], Rect, bool] | None:
     """The largest scale whose full layout fits with no text collision, and True; else the
     largest scale that fits with collisions left (or the smallest scale's layout), and False.
+    With ``larger`` (a larger sheet can be used instead), None rather than a layout that does
+    not fit: the smallest scale is then not laid out in full when it is sure to overflow.
 
     A scale is laid out in full (leaders and callouts are the costly part) only when neither the
     bare views nor the views with their dimensions alone already overflow the area. Text keeps
@@ -156,7 +162,7 @@ def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projecti
         if crowded is not None and tries >= CROWDED_TRIES:
             return crowded
         scale = num / den
-        final = k == len(ISO_5455_SCALES) - 1
+        final = k == len(ISO_5455_SCALES) - 1 and not larger
         if not final and (scale * bare_w > area_w_mm or scale * bare_h > area_h_mm):
             continue  # the bare views alone are too big: no need to lay it out
         main = annotate.main_start(part, scale, text_h=text_h, decimal_comma=decimal_comma)
@@ -177,6 +183,8 @@ def _fit(part: Part, area_w_mm: float, area_h_mm: float, text_h: float, projecti
             tries += 1
         if final:
             return crowded if crowded is not None else (scale, f"{num}:{den}", ents, box, False)
+    if larger:
+        return crowded
     raise AssertionError("the last ISO 5455 scale is always laid out")
 
 
@@ -217,8 +225,10 @@ def layout_part(part: Part, info: DocumentInfo, *, template: str = "a3-landscape
         vx, vy, vw, vh = _clear_of_marks(t, _area(t.views, rev_top, table_bottom))
         nx, ny, nw, nh = _clear_of_marks(t, _area(t.notes, rev_top, table_bottom))
         th = t.text("dimension")
-        scale, scale_text, views, box, fits = _fit(part, vw, vh, th, projection, decimal_comma)
-        if fits or template not in LARGER_SHEET:
+        found = _fit(part, vw, vh, th, projection, decimal_comma,
+                     larger=template in LARGER_SHEET)
+        if found is not None and (found[4] or template not in LARGER_SHEET):
+            scale, scale_text, views, box, _ = found
             break
         template = LARGER_SHEET[template]  # the views do not fit: use the next larger sheet
     out: list[Entity] = list(frame(t))

@@ -6,101 +6,31 @@ finished view as a shop would (text boxes as oriented rectangles, paper mm) and 
 movable text: a length's text along its dimension line, an angle's text outward from its vertex
 with the arc extended under it. Face letters, datum boxes, tolerance frames and leader texts
 stay put. What cannot be cleared is counted, and the layout treats a view with a collision as
-one that does not fit (a smaller scale or a larger sheet is tried).
+one that does not fit (a smaller scale or a larger sheet is tried). The text boxes and line
+pieces are read in ``textbox``; the trial spots and the search among them are in ``spots``.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, field, replace
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
 
-from prismfab.drawing.extent import bbox, text_boxes
-from prismfab.drawing.geom import Rect, box_hits_segment, run_on, text_width_mm
-from prismfab.drawing.placer import segments_cross
+from prismfab.drawing.extent import text_boxes
+from prismfab.drawing.geom import Rect, text_width_mm
 from prismfab.drawing.sheet import (
-    AlignedDim, AngularDim, Circle, Entity, Layer, Leader, Line, LinearDim, Polyline, Text, Width,
+    AlignedDim, AngularDim, Circle, Entity, Layer, Leader, LinearDim, Polyline, Text,
+)
+from prismfab.drawing.spots import ANGLE_REACH_MM, SLIDE_BEYOND_MM, STEP_MM, move, within
+from prismfab.drawing.textbox import (
+    CLEAR_MM, EPS, HARD, INK_H, INK_MM, Box, angle_box, any_through, arc_pieces, box_hits,
+    boxes_overlap, clear, dim_box, extensions, footprint, outline_pieces, own_lines, segments,
+    segments_near, text_box,
 )
 
-__all__ = ["Box", "collisions", "resolve"]
+__all__ = ["Box", "collisions", "footprint", "resolve"]
 
 P2 = tuple[float, float]
-CLEAR_MM = 0.4  # free paper a moved text keeps from other text
-STEP_MM = 0.5  # trial step along a dimension line or outward from an angle's vertex
-SLIDE_BEYOND_MM = 4.0  # how far past a dimension line's end its text's near edge may go
-ANGLE_REACH_MM = 24.0  # how far outward an angle's text may move
-EPS = 1e-6
-INK_H = 1.3  # ink height of a text line / its character (cap) height: brackets, descenders
-INK_MM = Width.WIDE.value / 2  # a wide line's ink reaches this far either side of its axis
-
-
-@dataclass(frozen=True, slots=True)
-class Box:
-    """An oriented text rectangle: centre, half width and height (paper mm), turn (degrees)."""
-
-    centre: P2
-    half_w: float
-    half_h: float
-    rot_deg: float = 0.0
-    _axes: tuple[P2, P2] = field(init=False, repr=False, compare=False)
-    _hull: tuple[float, float, float, float] = field(init=False, repr=False, compare=False)
-
-    def __post_init__(self) -> None:
-        # The collision pass asks every box for its axes and hull many thousand times.
-        c, s = math.cos(math.radians(self.rot_deg)), math.sin(math.radians(self.rot_deg))
-        object.__setattr__(self, "_axes", ((c, s), (-s, c)))
-        ac, as_ = abs(c), abs(s)
-        hx, hy = ac * self.half_w + as_ * self.half_h, as_ * self.half_w + ac * self.half_h
-        object.__setattr__(self, "_hull", (self.centre[0] - hx, self.centre[1] - hy,
-                                           self.centre[0] + hx, self.centre[1] + hy))
-
-    def grown(self, pad_mm: float) -> Box:
-        return replace(self, half_w=self.half_w + pad_mm, half_h=self.half_h + pad_mm)
-
-    def axes(self) -> tuple[P2, P2]:
-        return self._axes
-
-    def corners(self) -> tuple[P2, ...]:
-        (ux, uy), (vx, vy) = self.axes()
-        x, y = self.centre
-        return tuple((x + a * ux * self.half_w + b * vx * self.half_h,
-                      y + a * uy * self.half_w + b * vy * self.half_h)
-                     for a, b in ((-1, -1), (1, -1), (1, 1), (-1, 1)))
-
-    def hull(self) -> tuple[float, float, float, float]:
-        """The axis-aligned box around the rectangle."""
-        return self._hull
-
-    def local(self, p: P2) -> P2:
-        (ux, uy), (vx, vy) = self.axes()
-        dx, dy = p[0] - self.centre[0], p[1] - self.centre[1]
-        return dx * ux + dy * uy, dx * vx + dy * vy
-
-
-def boxes_overlap(a: Box, b: Box) -> bool:
-    """True when the two rectangles share area (separating axis test; touching is apart)."""
-    ha, hb = a.hull(), b.hull()
-    if (ha[0] >= hb[2] - EPS or hb[0] >= ha[2] - EPS or ha[1] >= hb[3] - EPS
-            or hb[1] >= ha[3] - EPS):
-        return False
-    if a.rot_deg == 0.0 and b.rot_deg == 0.0:
-        return True  # axis-aligned: the hulls are the boxes
-    for axis in (*a.axes(), *b.axes()):
-        pa = [c[0] * axis[0] + c[1] * axis[1] for c in a.corners()]
-        pb = [c[0] * axis[0] + c[1] * axis[1] for c in b.corners()]
-        if min(pa) >= max(pb) - EPS or min(pb) >= max(pa) - EPS:
-            return False
-    return True
-
-
-def box_hits(box: Box, p: P2, q: P2) -> bool:
-    """True when segment p-q runs through the rectangle (not merely touching its edge)."""
-    x0, y0, x1, y1 = box.hull()
-    if (max(p[0], q[0]) <= x0 + EPS or min(p[0], q[0]) >= x1 - EPS
-            or max(p[1], q[1]) <= y0 + EPS or min(p[1], q[1]) >= y1 - EPS):
-        return False
-    w, h = box.half_w - EPS, box.half_h - EPS
-    return box_hits_segment((-w, -h, w, h), box.local(p), box.local(q))
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,15 +42,6 @@ class _Item:
     box: Box
     movable: bool
     callout: bool = False
-
-
-def _dim_box(e: AlignedDim | LinearDim, text_h: float) -> Box:
-    return Box(e.text_pos, text_width_mm(e.text, text_h) / 2, INK_H * text_h / 2,
-               e.text_rotation_deg)
-
-
-def _angle_box(e: AngularDim, text_h: float) -> Box:
-    return Box(e.text_pos, text_width_mm(e.text, text_h) / 2, INK_H * text_h / 2)
 
 
 def _aabb(r: tuple[float, float, float, float]) -> Box:
@@ -145,9 +66,9 @@ def _items(ents: Sequence[Entity], text_h: float) -> list[_Item]:
     holders: list[Box] = []
     for i, e in enumerate(ents):
         if isinstance(e, AlignedDim | LinearDim):
-            out.append(_Item(i, _dim_box(e, text_h), True))
+            out.append(_Item(i, dim_box(e, text_h), True))
         elif isinstance(e, AngularDim):
-            out.append(_Item(i, _angle_box(e, text_h), True))
+            out.append(_Item(i, angle_box(e, text_h), True))
         elif isinstance(e, Leader) and e.lines:
             out.append(_Item(i, _aabb(text_boxes(e, text_h)[0]), False, True))
         elif isinstance(e, Circle) and e.layer is Layer.ANNOTATION:
@@ -179,71 +100,22 @@ def _share_edge(a: Box, b: Box) -> bool:
             and abs(ay - by) < 1e-6 and abs(a.half_h - b.half_h) < 1e-6)
 
 
-def _segments(e: Entity, text_h: float = 0.0) -> Iterator[tuple[P2, P2]]:
-    """The straight pieces of an entity's line work (arcs as chords); with the dimension text
-    height ``text_h``, a dimension line's run-on under text beyond its ends too."""
-    if isinstance(e, Line):
-        yield e.start, e.end
-    elif isinstance(e, Polyline):
-        pts = list(e.points) + ([e.points[0]] if e.closed else [])
-        yield from zip(pts, pts[1:], strict=False)
-    elif isinstance(e, Leader):
-        yield from zip(e.points, e.points[1:], strict=False)
-    elif isinstance(e, AlignedDim | LinearDim):
-        a, b = e.dim_line()
-        yield a, b
-        more = run_on(a, b, e.text_pos, text_width_mm(e.text, text_h) / 2) if text_h else None
-        if more is not None:
-            yield more
-        yield from _extensions(e)
-    elif isinstance(e, AngularDim):
-        yield from _arc_pieces(e)
-
-
-def _extensions(e: AlignedDim | LinearDim) -> Iterator[tuple[P2, P2]]:
-    from prismfab.drawing.dims import EXT_BEYOND_MM, EXT_OFFSET_MM
-
-    for p, d in zip((e.p1, e.p2), e.dim_line(), strict=True):
-        n = math.hypot(d[0] - p[0], d[1] - p[1])
-        if n > EPS:
-            u = ((d[0] - p[0]) / n, (d[1] - p[1]) / n)
-            yield ((p[0] + u[0] * EXT_OFFSET_MM, p[1] + u[1] * EXT_OFFSET_MM),
-                   (d[0] + u[0] * EXT_BEYOND_MM, d[1] + u[1] * EXT_BEYOND_MM))
-
-
-def _arc_pieces(e: AngularDim) -> Iterator[tuple[P2, P2]]:
-    a1, a2 = (math.radians(a) for a in e.arc_deg())
-    sweep = (a2 - a1) % (2 * math.pi)
-    pts = [(e.vertex[0] + e.radius_mm * math.cos(a1 + sweep * k / 16),
-            e.vertex[1] + e.radius_mm * math.sin(a1 + sweep * k / 16)) for k in range(17)]
-    yield from zip(pts, pts[1:], strict=False)
-    for p, a in ((e.p1, a1), (e.p2, a2)):  # legs shorter than the radius: extension lines
-        dp = math.hypot(p[0] - e.vertex[0], p[1] - e.vertex[1])
-        if dp < e.radius_mm:
-            u = (math.cos(a), math.sin(a))
-            far = e.radius_mm + 2.0
-            yield ((e.vertex[0] + u[0] * (dp + 1.0), e.vertex[1] + u[1] * (dp + 1.0)),
-                   (e.vertex[0] + u[0] * far, e.vertex[1] + u[1] * far))
-
-
-HARD = (Layer.OUTLINE, Layer.APERTURE)
-"""Lines of the part itself: its outline and its clear-aperture lines, which text never crosses."""
-
-
-def _outline(ents: Sequence[Entity]) -> list[tuple[P2, P2]]:
-    return [s for e in ents if getattr(e, "layer", None) in HARD for s in _segments(e)]
-
-
 def collisions(ents: Sequence[Entity], text_h: float) -> list[str]:
-    """Text boxes of a view that overlap each other or cross the part outline (or a clear
-    aperture line), described.
+    """Text boxes of a view that overlap each other, cross the part outline (or a clear
+    aperture line) or are crossed by a thin line of another entity, described.
+
+    Thin lines are dimension, extension and construction lines, arcs, leaders and the ray path;
+    an entity's own lines do not count against its own text (a dimension's text stands on its
+    own dimension line), except a dimension's own extension lines (ISO 129-1: the value stands
+    between them or beyond one, never across one).
 
     Args:
         ents: the entities of one or both views (paper mm).
         text_h: the dimension text height (paper mm).
     """
     items = _items(ents, text_h)
-    outline = _outline(ents)
+    outline = outline_pieces(ents)
+    thin = _thin_pieces(ents, text_h, items)
     out = []
     for k, a in enumerate(items):
         for b in items[k + 1:]:
@@ -251,7 +123,55 @@ def collisions(ents: Sequence[Entity], text_h: float) -> list[str]:
                 out.append(f"{_name(ents[a.index])} overlaps {_name(ents[b.index])}")
         if any(box_hits(a.box.grown(INK_MM), p, q) for p, q in outline):
             out.append(f"{_name(ents[a.index])} crosses the outline")
+        for j in sorted({j for j, p, q in _near_pieces(thin, a.box.hull())
+                         if j != a.index and _item_hit(ents[a.index], a.box, p, q)}):
+            out.append(f"{_name(ents[j])} runs through {_name(ents[a.index])}")
+        own = ents[a.index]
+        if isinstance(own, AlignedDim | LinearDim) and any_through([a.box], list(extensions(own))):
+            out.append(f"{_name(own)} is crossed by its own extension line")
     return out
+
+
+Piece = tuple[int, P2, P2, tuple[float, float, float, float]]
+"""A thin line piece: the index of the entity that draws it, its ends, its bounding box."""
+
+
+def _thin_pieces(ents: Sequence[Entity], text_h: float, items: Sequence[_Item]) -> list[Piece]:
+    """Every thin line piece of the view (not the part's lines, not the edges of boxes that are
+    text items themselves: those count as box overlaps)."""
+    boxed = {it.index for it in items if isinstance(ents[it.index], Polyline)}
+    out: list[Piece] = []
+    for j, e in enumerate(ents):
+        if getattr(e, "layer", None) in HARD or j in boxed:
+            continue
+        for p, q in segments(e, text_h):
+            out.append((j, p, q, (min(p[0], q[0]), min(p[1], q[1]), max(p[0], q[0]),
+                                  max(p[1], q[1]))))
+    return out
+
+
+def _near_pieces(pieces: Sequence[Piece], hull: tuple[float, float, float, float]
+                 ) -> list[tuple[int, P2, P2]]:
+    """The pieces whose bounding box meets ``hull`` (a cheap filter before exact tests)."""
+    x0, y0, x1, y1 = hull
+    return [(j, p, q) for j, p, q, r in pieces
+            if not (r[2] < x0 or r[0] > x1 or r[3] < y0 or r[1] > y1)]
+
+
+def _item_hit(e: Entity, box: Box, p: P2, q: P2) -> bool:
+    """True when line p-q runs through the text item: a face letter's circle by its disc (a
+    leader ends on the circle), any other by its box."""
+    if isinstance(e, Circle):
+        return _dist_to_segment(e.centre, p, q) < e.radius_mm - 1e-3
+    return box_hits(box, p, q)
+
+
+def _dist_to_segment(c: P2, p: P2, q: P2) -> float:
+    dx, dy = q[0] - p[0], q[1] - p[1]
+    n2 = dx * dx + dy * dy
+    along = ((c[0] - p[0]) * dx + (c[1] - p[1]) * dy) / n2 if n2 >= EPS * EPS else 0.0
+    t = max(0.0, min(1.0, along))
+    return math.hypot(p[0] + t * dx - c[0], p[1] + t * dy - c[1])
 
 
 def _name(e: Entity) -> str:
@@ -259,14 +179,22 @@ def _name(e: Entity) -> str:
     return f"{type(e).__name__} {text!r}"
 
 
-def resolve(ents: Sequence[Entity], text_h: float, *, limit: Rect | None = None
-            ) -> tuple[list[Entity], int]:
+Attempts = dict
+"""Texts that found no better spot (``resolve(memo=...)``): the entity, what stood near it, the
+room it was given. Shared by the passes over one view group, a text whose surroundings did not
+change is not searched again."""
+
+
+def resolve(ents: Sequence[Entity], text_h: float, *, limit: Rect | None = None,
+            memo: Attempts | None = None) -> tuple[list[Entity], int]:
     """The view with colliding dimension and angle texts moved to free paper.
 
     Texts are visited in drawing order, angles first (an angle's text may move farther without
-    losing its dimension); each one that overlaps text, crosses the outline or sits on another
-    line moves to the nearest spot that is clear of all of those, else to the nearest clear of
-    text and outline only. Returns the view and the number of collisions left
+    losing its dimension); each one that overlaps text, crosses the outline, sits on another
+    line, or whose own arc or run-on runs through other text moves to the nearest spot that is
+    clear of all of those (along its line, then on the other side of it; an angle outward),
+    else to the spot clear of text and outline with the fewest lines through it, when that has
+    fewer than where it stands. Returns the view and the number of collisions left
     (``collisions``), which the layout counts as not fitting.
 
     Args:
@@ -274,198 +202,126 @@ def resolve(ents: Sequence[Entity], text_h: float, *, limit: Rect | None = None
         text_h: the dimension text height (paper mm).
         limit: where a moved dimension (text, arc) must stay, e.g. the room left on the sheet;
             None for anywhere.
+        memo: searches that found nothing, kept between calls over the same view group (a
+            later call over the group with leaders added searches again only for the texts
+            that something new or moved stands near); None for none.
     """
     out = list(ents)
-    outline = _outline(out)
-    section = [s for e in out if getattr(e, "layer", None) is Layer.OUTLINE for s in _segments(e)]
-    movable = [it for it in _items(out, text_h) if it.movable]
-    order = sorted((it.index for it in movable),
+    memo = {} if memo is None else memo
+    outline = outline_pieces(out)
+    section = [s for e in out if getattr(e, "layer", None) is Layer.OUTLINE for s in segments(e)]
+    items = _items(out, text_h)
+    slot = {it.index: k for k, it in enumerate(items)}
+    segs = [[] if getattr(e, "layer", None) in HARD else list(segments(e, text_h)) for e in out]
+    extents = [_extent(items[slot[j]].box if j in slot else None,
+                       segs[j] or (list(segments(e)) if getattr(e, "layer", None) in HARD else []))
+               for j, e in enumerate(out)]
+    order = sorted((it.index for it in items if it.movable),
                    key=lambda i: (not isinstance(out[i], AngularDim), i))
-    for _ in range(3):
-        moved = False
-        for i in order:
-            items = _items(out, text_h)
-            box = next(it.box for it in items if it.index == i)
-            others = [it.box.grown(CLEAR_MM) for it in items if it.index != i]
-            solid = [it.box for it in items if it.index != i and not it.callout]
-            lines = [s for j, e in enumerate(out) if j != i
-                     and getattr(e, "layer", None) not in HARD for s in _segments(e, text_h)]
-            if isinstance(out[i], AlignedDim | LinearDim):
-                lines += list(_extensions(out[i]))  # type: ignore[arg-type]
-            elif isinstance(out[i], AngularDim):
-                lines += list(_arc_pieces(out[i]))  # its own arc, unless it has to move
-            bare = [it.box for it in items if it.index != i]
-            if _clear(box, bare, outline, lines, pad=INK_MM):  # moved only when it collides
-                continue
-            loose = not _clear(box, bare, outline, None, pad=INK_MM)  # else only a line to leave
-            new = _move(out[i], text_h, others, outline, lines, section=section, solid=solid,
-                        loose=loose, limit=limit)
-            if new is not None:
-                out[i] = new
+    for clean_only in (True, False):  # clean spots for every text first, then less bad ones
+        for _ in range(3):
+            moved = False
+            for i in order:
+                found = _search(i, out, items, slot, segs, extents, text_h, outline, section,
+                                limit, memo)
+                if found is None or (clean_only and not found[1]):
+                    continue
+                out[i] = found[0]
+                items[slot[i]] = replace(items[slot[i]], box=text_box(found[0], text_h))
+                segs[i] = list(segments(found[0], text_h))
+                extents[i] = _extent(items[slot[i]].box, segs[i])
                 moved = True
-        if not moved:
-            break
+            if not moved:
+                break
     return out, len(collisions(out, text_h))
 
 
-def _clear(box: Box, others: list[Box], outline: list[tuple[P2, P2]],
-           lines: list[tuple[P2, P2]] | None, *, pad: float = CLEAR_MM) -> bool:
-    """The box clear of other text, and ``pad`` clear of the part's lines and of ``lines``."""
-    padded = box.grown(pad)
-    hull = padded.hull()
-    if any(box_hits(padded, p, q) for p, q in _near(outline, hull)):
-        return False
-    if any(boxes_overlap(box, o) for o in others):
-        return False
-    return lines is None or not any(box_hits(padded, p, q) for p, q in _near(lines, hull))
+def _search(i: int, out: list[Entity], items: list[_Item], slot: dict[int, int],
+            segs: list[list[tuple[P2, P2]]], extents: list[Rect | None],
+            text_h: float, outline: list[tuple[P2, P2]], section: list[tuple[P2, P2]],
+            limit: Rect | None, memo: Attempts) -> tuple[Entity, bool] | None:
+    """Where text ``i`` would move (``move``: the entity and whether the spot is clear), or
+    None when it stands clear or finds nothing better; answered from ``memo`` when it was
+    searched before with the same neighbours and room."""
+    e = out[i]
+    region = _reach(e, items[slot[i]].box, text_h)
+    near = [j for j, r in enumerate(extents) if j != i and r is not None
+            and r[0] <= region[2] and region[0] <= r[2] and r[1] <= region[3]
+            and region[1] <= r[3]]
+    context = tuple((out[j], items[slot[j]].callout if j in slot else None) for j in near)
+    tried = memo.get(e)
+    if tried is not None and tried[0] == context and (
+            tried[1] == limit or (tried[2] is None and _room_within(limit, tried[1]))):
+        return tried[2]  # searched before with the same neighbours and room
+    bare = [items[slot[j]] for j in near if j in slot]
+    lines = [s for j in near for s in segs[j]]
+    if isinstance(e, AlignedDim | LinearDim):
+        lines += list(extensions(e))
+    elif isinstance(e, AngularDim):
+        lines += list(arc_pieces(e))  # its own arc, unless it has to move
+    callouts = [it.box for it in bare if it.callout]
+    solid = [it.box for it in bare if not it.callout]
+    now = _badness(e, items[slot[i]].box, text_h, solid + callouts, outline, lines, callouts)
+    found = None
+    if now != 0:  # moved only when it collides
+        found = move(e, text_h, [it.box.grown(CLEAR_MM) for it in bare], outline, lines,
+                      section=section, solid=solid, callouts=callouts, worse_than=now,
+                      limit=limit)
+    memo[e] = (context, limit, found)
+    return found
 
 
-def _segments_hull(segments: list[tuple[P2, P2]]) -> tuple[float, float, float, float]:
+def _extent(box: Box | None, segments: list[tuple[P2, P2]]
+            ) -> tuple[float, float, float, float] | None:
+    """The axis-aligned hull of a text box and line pieces (paper mm); None for neither."""
     xs = [c[0] for seg in segments for c in seg]
     ys = [c[1] for seg in segments for c in seg]
-    return min(xs), min(ys), max(xs), max(ys)
+    if box is not None:
+        h = box.hull()
+        xs += [h[0], h[2]]
+        ys += [h[1], h[3]]
+    return (min(xs), min(ys), max(xs), max(ys)) if xs else None
 
 
-def _near(segments: list[tuple[P2, P2]], hull: tuple[float, float, float, float]
-          ) -> list[tuple[P2, P2]]:
-    """The segments whose bounding box meets ``hull`` (a cheap filter before exact tests)."""
-    x0, y0, x1, y1 = hull
-    return [(p, q) for p, q in segments
-            if not (max(p[0], q[0]) < x0 or min(p[0], q[0]) > x1
-                    or max(p[1], q[1]) < y0 or min(p[1], q[1]) > y1)]
-
-
-def _move(e: Entity, text_h: float, others: list[Box], outline: list[tuple[P2, P2]],
-          lines: list[tuple[P2, P2]], *, section: list[tuple[P2, P2]], solid: list[Box],
-          loose: bool, limit: Rect | None) -> Entity | None:
-    """The entity with its text at the nearest clear trial spot, or None.
-
-    First the nearest spot clear of text, outline and lines, a moved arc crossing no line nor
-    text; with ``loose``, else the spot clear of text and outline that sits on the fewest lines
-    (nearest first), a moved arc crossing no text but callouts (``solid`` holds the other text
-    boxes).
-    """
-    trials = list(_angle_trials(e, text_h, section) if isinstance(e, AngularDim)
-                  else _slide_trials(e, text_h))
-
-    def fits(cand: Entity, box: Box, strict: bool) -> bool:
-        if not _clear(box, others, outline, lines if strict else None):
-            return False
-        own = _own_lines(cand, text_h)
-        if any(box_hits(o, p, q) for o in (others if strict else solid) for p, q in own):
-            return False
-        if isinstance(cand, AngularDim) and any(
-                box_hits(box.grown(CLEAR_MM if strict else INK_MM), p, q)
-                for p, q in _arc_pieces(cand)):
-            return False  # the text stands clear of its own arc
-        if strict and own and any(segments_cross(a, b, p, q)
-                                  for p, q in _near(lines, _segments_hull(own)) for a, b in own):
-            return False
-        return limit is None or _within(bbox([cand], text_h), limit)
-
-    for cand, box in trials:
-        if fits(cand, box, True):
-            return cand
-    if not loose:
-        return None
-    best: tuple[int, Entity] | None = None
-    for cand, box in trials:
-        if (best is None or best[0] > 0) and fits(cand, box, False):
-            padded = box.grown(CLEAR_MM)
-            hits = sum(box_hits(padded, p, q) for p, q in lines)
-            if best is None or hits < best[0]:
-                best = (hits, cand)
-    return None if best is None else best[1]
-
-
-def _own_lines(e: Entity, text_h: float) -> list[tuple[P2, P2]]:
-    """The lines a move draws anew: an angle's arc and legs, a dimension line's run-on."""
+def _reach(e: Entity, box: Box, text_h: float) -> tuple[float, float, float, float]:
+    """Paper every trial spot of ``move`` can touch (its text boxes grown by the clearances,
+    its run-on, arc and legs), with margin: what stands beyond it cannot change the search."""
+    half_w = text_width_mm(e.text, text_h) / 2  # type: ignore[attr-defined]
+    pad = half_w + INK_H * text_h / 2 + CLEAR_MM + INK_MM + 1.0
+    h = box.hull()
     if isinstance(e, AngularDim):
-        return list(_segments(e))
-    if isinstance(e, AlignedDim | LinearDim):
-        a, b = e.dim_line()
-        more = run_on(a, b, e.text_pos, text_width_mm(e.text, text_h) / 2)
-        return [] if more is None else [more]
-    return []
-
-
-def _within(box: Rect | None, limit: Rect) -> bool:
-    return box is not None and (box[0] >= limit[0] and box[1] >= limit[1] and box[2] <= limit[2]
-                                and box[3] <= limit[3])
-
-
-def _slide_trials(e: Entity, text_h: float) -> Iterator[tuple[Entity, Box]]:
-    """The dimension with its text slid along its line, nearest first (both ways)."""
+        r = e.radius_mm + ANGLE_REACH_MM + 3.0 + half_w + text_h / 2 + pad
+        x, y = e.vertex
+        return min(x - r, h[0]), min(y - r, h[1]), max(x + r, h[2]), max(y + r, h[3])
     assert isinstance(e, AlignedDim | LinearDim)
     a, b = e.dim_line()
-    length = math.hypot(b[0] - a[0], b[1] - a[1])
-    reach = (length + text_width_mm(e.text, text_h)) / 2 + SLIDE_BEYOND_MM
     rot = math.radians(e.text_rotation_deg)
-    u = (math.cos(rot), math.sin(rot))
-    for k in range(1, int(reach / STEP_MM) + 1):
-        for sign in (1.0, -1.0):
-            s = sign * k * STEP_MM
-            moved = replace(e, text_pos=(e.text_pos[0] + u[0] * s, e.text_pos[1] + u[1] * s))
-            yield moved, _dim_box(moved, text_h)
+    along = math.hypot(b[0] - a[0], b[1] - a[1]) / 2 + half_w + SLIDE_BEYOND_MM + STEP_MM
+    mid = ((a[0] + b[0]) / 2, (a[1] + b[1]) / 2)
+    ends = [(c[0] + s * math.cos(rot) * along, c[1] + s * math.sin(rot) * along)
+            for c in (e.text_pos, mid) for s in (-1.0, 1.0)]
+    xs = [p[0] for p in (a, b, *ends)]
+    ys = [p[1] for p in (a, b, *ends)]
+    return (min(min(xs) - pad, h[0]), min(min(ys) - pad, h[1]), max(max(xs) + pad, h[2]),
+            max(max(ys) + pad, h[3]))
 
 
-def _angle_trials(e: AngularDim, text_h: float, outline: Sequence[tuple[P2, P2]] = ()
-                  ) -> Iterator[tuple[Entity, Box]]:
-    """The angle with its text moved outward, nearest first.
-
-    An angle on the extended legs (outside the section) grows its arc step by step, the text
-    standing just beyond the arc on a direction within the sector (its own first, then the
-    bisector and fanned either side). An angle inside the section keeps its arc (its legs are
-    the faces) and moves its text farther in, on the same directions, while it stays inside;
-    then it is tried on the extended legs (the vertically opposite, equal angle).
-    """
-    d = (e.text_pos[0] - e.vertex[0], e.text_pos[1] - e.vertex[1])
-    n = math.hypot(*d)
-    if n < EPS:
-        return
-    own = (d[0] / n, d[1] / n)
-    if math.hypot(e.p1[0] - e.vertex[0], e.p1[1] - e.vertex[1]) <= e.radius_mm:
-        yield from _outside_trials(e, own, text_h)
-        return
-    dirs = _sector_dirs(e, own)
-    half_w = text_width_mm(e.text, text_h) / 2
-    for k in range(int(ANGLE_REACH_MM / STEP_MM) + 1):  # farther in, the arc unchanged
-        for u in dirs:
-            reach = abs(u[0]) * half_w + abs(u[1]) * text_h / 2
-            t = e.radius_mm + 1.0 + reach + k * STEP_MM
-            pos = (e.vertex[0] + u[0] * t, e.vertex[1] + u[1] * t)
-            if any(segments_cross(e.text_pos, pos, p, q) for p, q in outline):
-                continue  # the text would leave the section
-            moved = replace(e, text_pos=pos)
-            yield moved, _angle_box(moved, text_h)
-    e1, e2 = (_unit(e.vertex, e.p1), _unit(e.vertex, e.p2))
-    flipped = replace(e, p1=(e.vertex[0] - 0.3 * e1[0], e.vertex[1] - 0.3 * e1[1]),
-                      p2=(e.vertex[0] - 0.3 * e2[0], e.vertex[1] - 0.3 * e2[1]))
-    yield from _outside_trials(flipped, (-own[0], -own[1]), text_h)
+def _room_within(limit: Rect | None, tried: Rect | None) -> bool:
+    """True when room ``limit`` lies inside the room ``tried`` (None: unbounded)."""
+    if tried is None:
+        return True
+    return limit is not None and within(limit, tried)
 
 
-def _unit(a: P2, b: P2) -> P2:
-    n = math.hypot(b[0] - a[0], b[1] - a[1])
-    return (b[0] - a[0]) / n, (b[1] - a[1]) / n
-
-
-def _sector_dirs(e: AngularDim, own: P2) -> list[P2]:
-    """Text directions from the vertex: the text's own, then the bisector and fanned out."""
-    a1, a2 = (math.radians(a) for a in e.arc_deg())
-    sweep = (a2 - a1) % (2 * math.pi)
-    return [own] + [(math.cos(a1 + f * sweep), math.sin(a1 + f * sweep))
-                    for f in (0.5, 0.4, 0.6, 0.3, 0.7, 0.2, 0.8)]
-
-
-def _outside_trials(e: AngularDim, own: P2, text_h: float) -> Iterator[tuple[Entity, Box]]:
-    """An angle on extended legs with its arc grown and its text just beyond the arc."""
-    half_w = text_width_mm(e.text, text_h) / 2
-    dirs = _sector_dirs(e, own)
-    for k in range(int(ANGLE_REACH_MM / STEP_MM) + 1):
-        radius = e.radius_mm + k * STEP_MM
-        for u in dirs:
-            reach = abs(u[0]) * half_w + abs(u[1]) * text_h / 2  # box centre to its edge along u
-            t = radius + 1.0 + reach
-            moved = replace(e, text_pos=(e.vertex[0] + u[0] * t, e.vertex[1] + u[1] * t),
-                            radius_mm=radius)
-            yield moved, _angle_box(moved, text_h)
+def _badness(e: Entity, box: Box, text_h: float, bare: list[Box], outline: list[tuple[P2, P2]],
+             lines: list[tuple[P2, P2]], callouts: list[Box]) -> float:
+    """How badly a dimension text stands: 0 when clear; infinite on text or the outline; else
+    the lines through its box plus the callouts its own arc or run-on runs through."""
+    if not clear(box, bare, outline, None, pad=INK_MM):
+        return math.inf
+    own = own_lines(e, text_h)
+    if any(box_hits(o, p, q) for o in bare if o not in callouts for p, q in own):
+        return math.inf
+    padded = box.grown(INK_MM)
+    return (sum(box_hits(padded, p, q) for p, q in segments_near(lines, padded.hull()))
+            + sum(any(box_hits(o, p, q) for p, q in own) for o in callouts))

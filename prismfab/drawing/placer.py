@@ -40,6 +40,15 @@ class Placer:
         self._reach: list[Rect] = []
         self._cache: _Arrays | None = None
 
+    def copy(self) -> Placer:
+        """An independent copy (e.g. to try a placement and throw it away)."""
+        other = Placer(self.area)
+        other.boxes = list(self.boxes)
+        other.segments = list(self.segments)
+        other.regions = list(self.regions)
+        other._reach = list(self._reach)
+        return other
+
     def add_region(self, polygon: Iterable[P2]) -> None:
         """A view outline: text may not stand inside it unless asked to."""
         self.regions.append(tuple(polygon))
