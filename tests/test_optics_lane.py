@@ -42,6 +42,16 @@ def test_the_lane_is_built_where_a_compiler_is() -> None:
     assert _lane.available(), "the compiled lane was not built: reinstall with `pip install -e .`"
 
 
+def test_a_library_of_another_version_is_not_used(tmp_path: object, monkeypatch: pytest.MonkeyPatch) -> None:
+    """A stale build (another LANE_VERSION) is refused: the tracer then runs numpy only."""
+    if not _lane.available():
+        pytest.skip("compiled lane not built")
+    monkeypatch.setattr(_lane, "VERSION", _lane.VERSION + 1)
+    assert _lane._load() is None
+    monkeypatch.setattr(_lane, "VERSION", _lane.VERSION - 1)
+    assert _lane._load() is not None
+
+
 @pytest.fixture
 def calls(monkeypatch: pytest.MonkeyPatch) -> Iterator[dict[str, int]]:
     """Counts of compiled-lane calls (refract events and flagged rays)."""

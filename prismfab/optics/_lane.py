@@ -20,6 +20,8 @@ from numpy.typing import NDArray
 F64 = NDArray[np.float64]
 
 FLAG_DONE, FLAG_UNVERIFIED, FLAG_TIR = 0, 1, 2
+VERSION = 3
+"""The ``LANE_VERSION`` of ``_lanec.c`` these bindings are written for."""
 
 def _load() -> ctypes.CDLL | None:
     if os.environ.get("PRISMFAB_NUMPY_ONLY"):
@@ -30,7 +32,10 @@ def _load() -> ctypes.CDLL | None:
         if path.is_file():
             try:
                 lib = ctypes.CDLL(str(path))
-            except OSError:
+                lib.prismfab_lane_version.restype = ctypes.c_int
+                if lib.prismfab_lane_version() != VERSION:
+                    return None  # a stale build: `pip install -e .` rebuilds it
+            except (OSError, AttributeError):
                 return None
             vp, n_t = ctypes.c_void_p, ctypes.c_ssize_t
             lib.prismfab_lane_refract.restype = n_t

@@ -14,6 +14,12 @@
 #include <stdint.h>
 #include <string.h>
 
+/* Raised whenever a signature or a layout below changes; _lane.py refuses a library built from
+ * another version (a stale build in an editable install) and runs numpy instead. */
+#define LANE_VERSION 3
+
+int prismfab_lane_version(void) { return LANE_VERSION; }
+
 #define FLAG_DONE 0
 #define FLAG_UNVERIFIED 1
 #define FLAG_TIR 2
