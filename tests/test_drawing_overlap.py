@@ -185,3 +185,76 @@ def test_resolve_moves_a_text_wider_than_its_line_beyond_the_far_end() -> None:
     assert left == 0 and overlap.collisions(ents, TEXT_H) == []
     moved = ents[1]
     assert isinstance(moved, AlignedDim) and moved.text_pos[0] > 10.0
+
+
+RAY_LABEL = "ray path for reference"
+
+
+def test_starter_ray_paths_carry_their_label(starter_sheets: dict[str, Sheet]) -> None:
+    """The reference ray path is labelled on the section where there is room (common practice:
+    a reference line is named where it is drawn); the leader starts on the ray's chain line.
+    The periscope drawing (custom) and the first wedge have their drawn ray leads boxed in by
+    dimension texts (and a full sheet), so their rays are named by the notes only."""
+    from prismfab.drawing.sheet import Leader
+
+    for name, sheet in starter_sheets.items():
+        views = _views(sheet)
+        labels = [e for e in views if isinstance(e, Leader) and e.lines == (RAY_LABEL,)]
+        if name.startswith(("custom:", "wedge:FS-1550-01")):
+            continue
+        assert len(labels) == 1, name
+        tip = labels[0].points[0]
+        ray = [s for e in views if isinstance(e, Polyline) and e.layer is Layer.RAY
+               for s in zip(e.points, e.points[1:], strict=False)]
+        assert min(_point_to_segment(tip, p, q) for p, q in ray) < 1e-6, name
+
+
+def _point_to_segment(c: tuple[float, float], p: tuple[float, float], q: tuple[float, float]
+                      ) -> float:
+    dx, dy = q[0] - p[0], q[1] - p[1]
+    t = max(0.0, min(1.0, ((c[0] - p[0]) * dx + (c[1] - p[1]) * dy) / (dx * dx + dy * dy)))
+    return math.dist(c, (p[0] + t * dx, p[1] + t * dy))
+
+
+def test_wedge_dimension_texts_are_not_stacked(starter_sheets: dict[str, Sheet]) -> None:
+    """No two dimension or angle values stand one over the other like one two-line value
+    (ISO 129-1: each value is read with its own dimension line; common practice). The wedge's
+    apex-flat width and the obtuse angle beside it were once stacked so."""
+    from prismfab.drawing.textbox import angle_box, dim_box, stacked
+
+    for name, sheet in starter_sheets.items():
+        if not name.startswith("wedge:"):
+            continue
+        th = sheet.dimension_text_mm
+        boxes = [(e.text, dim_box(e, th) if not isinstance(e, AngularDim) else angle_box(e, th))
+                 for e in _views(sheet) if isinstance(e, AlignedDim | AngularDim)]
+        pairs = [(a, b) for k, (a, ba) in enumerate(boxes) for b, bb in boxes[k + 1:]
+                 if stacked(ba, bb, th)]
+        assert pairs == [], name
+
+
+def test_stacked_sees_two_lines_one_over_the_other() -> None:
+    """The stacking test can fail: parallel lines close across and overlapping along are
+    stacked; side by side, far apart across, turned, or a letter circle are not."""
+    from prismfab.drawing.textbox import Box, stacked
+
+    line = Box((0.0, 0.0), 10.0, 2.3)
+    assert stacked(line, Box((2.0, 5.0), 9.0, 2.3), TEXT_H)
+    assert not stacked(line, Box((25.0, 5.0), 9.0, 2.3), TEXT_H)  # side by side
+    assert not stacked(line, Box((2.0, 9.0), 9.0, 2.3), TEXT_H)  # a clear gap between
+    assert not stacked(line, Box((2.0, 5.0), 9.0, 2.3, 90.0), TEXT_H)  # crosswise
+    assert not stacked(line, Box((2.0, 5.0), 2.3, 2.3), TEXT_H)  # a letter circle
+
+
+def test_wedge_outside_angle_texts_stand_by_their_arc(starter_sheets: dict[str, Sheet]) -> None:
+    """An angle on extended legs has its value next to its arc (common practice: the value
+    reads with the arc it belongs to), not several millimetres off it, where there is room
+    (on the wedge there is)."""
+    from prismfab.drawing.textbox import angle_box, off_arc
+
+    for name, sheet in starter_sheets.items():
+        if not name.startswith("wedge:"):
+            continue
+        far = [e.text for e in _views(sheet) if isinstance(e, AngularDim)
+               and off_arc(e, angle_box(e, sheet.dimension_text_mm))]
+        assert far == [], name

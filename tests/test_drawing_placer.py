@@ -91,3 +91,23 @@ def test_points_in_polygon_matches_even_odd_rule() -> None:
         pts = [_point(rng) for _ in range(20)] + list(poly)
         xs, ys = np.array([p[0] for p in pts]), np.array([p[1] for p in pts])
         assert points_in_polygon(poly, xs, ys).tolist() == [_contains(tuple(poly), p) for p in pts]
+
+
+def test_leg_crossings_counts_thin_lines_and_keeps_off_others() -> None:
+    """A leg may cross placed lines (counted) but not text, not a kept-off line, and not come
+    within the clearance of one (measured from a little way along the leg)."""
+    placer = Placer((-100.0, -100.0, 100.0, 100.0))
+    placer.add_segment((5.0, -5.0), (5.0, 5.0))
+    placer.add_segment((8.0, -5.0), (8.0, 5.0))
+    placer.add_box((12.0, 20.0, 14.0, 22.0))
+    leg = ((0.0, 0.0), (10.0, 0.0))
+    assert placer.leg_crossings([leg], cross_views=False) == [2]
+    assert placer.legs_clear([leg], cross_views=False) == [False]
+    assert placer.leg_crossings([((0.0, 21.0), (20.0, 21.0))], cross_views=False) == [None]
+    keep = [((9.0, -5.0), (9.0, 5.0))]
+    assert placer.leg_crossings([leg], cross_views=False, keep_off=keep) == [None]
+    near = [((12.0, 0.5), (20.0, 0.5))]  # in line beyond the leg, 2 mm off its end
+    assert placer.leg_crossings([leg], cross_views=False, keep_off=near) == [2]
+    assert placer.leg_crossings([leg], cross_views=False, keep_off=near, clear_mm=1.2) == [2]
+    beside = [((4.0, 0.5), (10.0, 0.5))]  # runs along the leg 0.5 mm off
+    assert placer.leg_crossings([leg], cross_views=False, keep_off=beside, clear_mm=1.2) == [None]

@@ -15,9 +15,11 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from prismfab.drawing import callouts, dims, fmt
-from prismfab.drawing.geom import add, dist, mul, sub, unit
+from prismfab.drawing.geom import Rect, add, dist, mul, sub, unit
 from prismfab.drawing.placer import Placer
-from prismfab.drawing.sheet import Entity, Layer, Line, LineType, Width
+from prismfab.drawing.sheet import (
+    AlignedDim, Entity, Layer, Leader, Line, LinearDim, LineType, Width,
+)
 from prismfab.drawing.views import (
     ViewFrame, clip_ray_path, face_frame, main_outline, side_view,
 )
@@ -129,7 +131,8 @@ def main_start(part: Part, scale: float, *, text_h: float, decimal_comma: bool,
     return Started(part, scale, text_h, decimal_comma, placer, out, pts, ray, clean=clean)
 
 
-def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None = None
+def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None = None,
+                room: Callable[[list[Entity]], Rect | None] | None = None
                 ) -> list[Entity] | None:
     """``main_start``'s entities followed by the edge callouts, tolerance frames and ray path.
 
@@ -137,6 +140,9 @@ def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None
         g: the started group.
         keep_going: called with each stage's new entities; when it returns False the group is
             abandoned (None is returned), e.g. because the views already overflow the sheet.
+        room: called with the entities so far before the ray path is drawn: where its
+            reference labels may stand (paper mm; None for anywhere), so a label is left to the
+            notes rather than costing the views their scale.
     """
     out = _cleared(g)
     if keep_going is not None and not keep_going(out):
@@ -147,12 +153,26 @@ def main_finish(g: Started, *, keep_going: Callable[[list[Entity]], bool] | None
     ]
     if len(g.ray) >= 2:
         stages.append(lambda: callouts.ray_path(g.ray, polarization_note=g.part.polarization_note,
-                                                text_h=g.text_h, placer=g.placer))
+                                                text_h=g.text_h, placer=g.placer,
+                                                keep_off=_leader_barriers(out),
+                                                room=None if room is None else room(out)))
     for stage in stages:
         new = list(stage())
         out += new
         if keep_going is not None and not keep_going(new):
             return None
+    return out
+
+
+def _leader_barriers(ents: list[Entity]) -> list[tuple[P2, P2]]:
+    """Lines a reference leader may not cross even where it may cross thin lines: dimension
+    lines and other leaders (extension and construction lines, arcs it may)."""
+    out: list[tuple[P2, P2]] = []
+    for e in ents:
+        if isinstance(e, AlignedDim | LinearDim):
+            out.append(e.dim_line())
+        elif isinstance(e, Leader):
+            out += zip(e.points, e.points[1:], strict=False)
     return out
 
 

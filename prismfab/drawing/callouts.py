@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from typing import Any
 
 from prismfab.drawing.geom import add, dist, mul, sub, text_width_mm, unit
@@ -80,6 +81,9 @@ PREFER_DEG = (45, 135, -45, -135, 60, 120, -60, -120, 30, 150, -30, -150, 75, 10
 DISTANCES_MM = (9, 13, 18, 24, 31, 40, 50, 62, 75, 90)
 FAR_MM = (110, 130, 150)
 """Leader lengths tried for a reference label before it is left to the notes."""
+MAX_CROSSINGS = 3  # thin lines a reference label's leg may cross where no clean leg is free
+KEEP_OFF_MM = 1.2  # how near such a leg may come to a line it may not cross (reads as apart)
+CROSSING_COST = 4.0  # what a crossed line costs against the added paper and leg length (mm)
 
 
 def _trials(tip: P2, w: float, h: float, text_h: float, distances: tuple[float, ...],
@@ -114,15 +118,18 @@ def _off_tip(tip: P2, elbow: P2, gap_mm: float = 0.6) -> P2:
 
 def find_spot(tip: P2, w: float, h: float, *, placer: Placer, text_h: float,
               prefer_deg: tuple[float, ...] = PREFER_DEG, distances: tuple[float, ...] = DISTANCES_MM,
-              towards: P2 | None = None, cross_views: bool = False
+              towards: P2 | None = None, cross_views: bool = False,
+              keep_off: Sequence[tuple[P2, P2]] | None = None
               ) -> tuple[P2, P2, bool, tuple[float, float, float, float]] | None:
     """Elbow, shoulder end, side (True = text right) and box of a free w x h block for a leader.
 
     Spots go out ring by ring (one distance, every direction, nearest the preferred direction
     first). A spot's text box must be free; its leg may not run through text, cross a line
-    already drawn or (unless ``cross_views``) cross a view; its shoulder may not cross a line.
-    The cheapest spot wins: the paper it adds to the views, then leg length, then direction.
-    Every spot is screened in one array pass (the placer does not change during the search).
+    already drawn (with ``keep_off``: it may cross thin lines, at most ``MAX_CROSSINGS``, but
+    none of ``keep_off`` nor come within ``KEEP_OFF_MM`` of one) or (unless ``cross_views``) cross a view; its shoulder may not
+    cross a line. The cheapest spot wins: the paper it adds to the views, then leg length and
+    the lines the leg crosses, then direction. Every spot is screened in one array pass (the
+    placer does not change during the search).
     """
     if towards is not None:  # try directions nearest the preferred one first
         aim = math.degrees(math.atan2(towards[1], towards[0]))
@@ -137,10 +144,17 @@ def find_spot(tip: P2, w: float, h: float, *, placer: Placer, text_h: float,
     elbows = list(zip(ex.flat[ok].tolist(), ey.flat[ok].tolist(), strict=True))
     legs = [(_off_tip(tip, e), e) for e in elbows]
     shoulders = [(e, (x, e[1])) for x, e in zip(end_x.flat[ok].tolist(), elbows, strict=True)]
-    leg_ok = placer.legs_clear(legs, cross_views=cross_views)
+    if keep_off is None:
+        crossings: list[int | None] = [0 if c else None for c in
+                                       placer.legs_clear(legs, cross_views=cross_views)]
+    else:
+        crossings = [c if c is not None and c <= MAX_CROSSINGS else None for c in
+                     placer.leg_crossings(legs, cross_views=cross_views, keep_off=keep_off,
+                                          clear_mm=KEEP_OFF_MM)]
     shoulder_hit = placer.crosses_many(shoulders)
-    good = {i: (e, s[1]) for i, e, s, a, b in zip(ok, elbows, shoulders, leg_ok, shoulder_hit,
-                                                  strict=True) if a and not b}
+    good = {i: (e, s[1], c) for i, e, s, c, b in zip(ok, elbows, shoulders, crossings,
+                                                     shoulder_hit, strict=True)
+            if c is not None and not b}
     best: tuple[float, tuple[P2, P2, bool, tuple[float, float, float, float]]] | None = None
     for k, d in enumerate(distances):
         if best is not None and d > distances[0] and best[0] <= d * 0.2:
@@ -154,23 +168,26 @@ def find_spot(tip: P2, w: float, h: float, *, placer: Placer, text_h: float,
             # view area is taller than the views are.
             grow = 0.0 if ext is None else (3.0 * (max(0.0, ext[0] - box[0]) + max(0.0, box[2] - ext[2]))
                                             + max(0.0, ext[1] - box[1]) + max(0.0, box[3] - ext[3]))
-            cost = grow + 0.2 * d + 0.01 * rank
+            elbow, end, crossed = good[i]
+            cost = grow + 0.2 * d + CROSSING_COST * crossed + 0.01 * rank
             if best is None or cost < best[0] - 1e-9:
-                elbow, end = good[i]
                 best = (cost, (elbow, end, bool(right.flat[i]), box))  # type: ignore[assignment]
     return None if best is None else best[1]
 
 
 def leader(tip: P2, lines: tuple[str, ...], *, text_h: float, placer: Placer,
            prefer_deg: tuple[float, ...] = PREFER_DEG, distances: tuple[float, ...] = DISTANCES_MM,
-           arrow: bool = True, towards: P2 | None = None, cross_views: bool = False) -> Leader | None:
+           arrow: bool = True, towards: P2 | None = None, cross_views: bool = False,
+           keep_off: Sequence[tuple[P2, P2]] | None = None) -> Leader | None:
     """A leader from ``tip`` to a horizontal shoulder and a free text block; None if no room.
 
-    The leg crosses no line, text or (unless ``cross_views``) view already on the sheet.
+    The leg crosses no text, no line (with ``keep_off``: no line of those, and few thin lines;
+    see ``find_spot``) and (unless ``cross_views``) no view already on the sheet.
     """
     w, h = _block(lines, text_h)
     spot = find_spot(tip, w, h, placer=placer, text_h=text_h, prefer_deg=prefer_deg,
-                     distances=distances, towards=towards, cross_views=cross_views)
+                     distances=distances, towards=towards, cross_views=cross_views,
+                     keep_off=keep_off)
     if spot is None:
         return None
     elbow, end, right, box = spot
@@ -217,11 +234,17 @@ def tolerance_frame(tip: P2, cells: tuple[str, ...], *, text_h: float, placer: P
     return tuple(out)
 
 
-def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, placer: Placer
-             ) -> tuple[Entity, ...]:
+def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, placer: Placer,
+             keep_off: Sequence[tuple[P2, P2]] = (),
+             room: tuple[float, float, float, float] | None = None) -> tuple[Entity, ...]:
     """Chief ray (narrow long-dash dot), direction arrows, label and polarisation mark.
 
     The outside leads give way to text they would run through (the chain line is broken there).
+    The label and the polarisation callout stand on leaders over free paper; where no leg is
+    free of lines, one may cross a few thin lines (extension and construction lines, arcs) but
+    never text, the section, the ray itself or a line of ``keep_off`` (dimension lines and
+    leaders, say). With ``room`` (paper mm), the label and callout stand inside it or are left
+    to the notes.
     """
     def line(pts: tuple[P2, ...]) -> Polyline:
         return Polyline(pts, line_type=LineType.CENTER, width=Width.NARROW, layer=Layer.RAY)
@@ -242,6 +265,7 @@ def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, p
     else:
         out = [line(points)]
     placer.add_path(points)
+    barriers = (*keep_off, *zip(points, points[1:], strict=False))
     a, b = points[0], points[1]
     u = unit(sub(b, a))
     mid = add(a, mul(sub(b, a), 0.75))
@@ -270,20 +294,87 @@ def ray_path(points: tuple[P2, ...], *, polarization_note: str, text_h: float, p
     # Nearest the outer ends first; a tip under a reserved box (the polarisation mark) is
     # skipped; then farther out, with a longer leg.
     tips = [add(points[k], mul(sub(points[j], points[k]), f))
-            for f in (0.12, 0.3, 0.5, 0.05, 0.65, 0.8, 0.9) for k, j in ((0, 1), (-1, -2))]
-    tips = [t for t in tips if not placer.hits_box(t, t)]
-    for distances in (DISTANCES_MM, FAR_MM):
-        lead = next((lead for tip in tips if (lead := leader(
-            tip, ("ray path for reference",), text_h=small, placer=placer, arrow=False,
-            distances=distances)) is not None), None)
-        if lead is not None:
-            out.append(lead)
-            break
-    if note:
-        from prismfab.drawing.tables import wrap
+            for f in (0.12, 0.3, 0.5, 0.05, 0.65, 0.8, 0.9, 0.72, 0.85, 0.95) for k, j in ((0, 1), (-1, -2))]
+    drawn = (*lead_in, *lead_out) if len(points) >= 3 else None  # where the leads show
+    tips = [t for t in tips if not placer.hits_box(t, t)
+            and (drawn is None or any(_on_segment(t, p, q) for p, q in drawn))]
+    label = ("ray path for reference",)
+    area = placer.area
+    if room is not None:  # the labels may not push the views off the sheet
+        placer.area = (max(area[0], room[0]), max(area[1], room[1]), min(area[2], room[2]),
+                       min(area[3], room[3]))
+    try:
+        for keep in (None, barriers):  # over free paper first, else crossing thin lines
+            lead = _reference_leader(tips, label, small, placer, keep, DISTANCES_MM)
+            if lead is not None:
+                out.append(lead)
+                break
+            found = _on_longer_lead(points, label, small, placer, keep)
+            if found:
+                out += found
+                break
+        else:
+            lead = _reference_leader(tips, label, small, placer, None, FAR_MM)
+            out += [] if lead is None else [lead]
+        if note:
+            from prismfab.drawing.tables import wrap
 
-        lines = ("plane of incidence = drawing plane", *wrap(f"polarisation {note}", 62.0, small))
-        lead = leader(mark_at, lines, text_h=small, placer=placer, arrow=False)
-        if lead is not None:
-            out.append(lead)
+            lines = ("plane of incidence = drawing plane", *wrap(f"polarisation {note}", 62.0, small))
+            lead = next((lead for keep in (None, barriers) if (lead := _reference_leader(
+                [mark_at], lines, small, placer, keep, DISTANCES_MM)) is not None), None)
+            out += [] if lead is None else [lead]
+    finally:
+        placer.area = area
     return tuple(out)
+
+
+def _on_segment(c: P2, p: P2, q: P2) -> bool:
+    """True when point c lies on segment p-q (within 1e-6 mm): on a drawn piece of a lead."""
+    dx, dy = q[0] - p[0], q[1] - p[1]
+    n2 = dx * dx + dy * dy
+    t = 0.0 if n2 < 1e-18 else max(0.0, min(1.0, ((c[0] - p[0]) * dx + (c[1] - p[1]) * dy) / n2))
+    return math.hypot(p[0] + t * dx - c[0], p[1] + t * dy - c[1]) < 1e-6
+
+
+LONGER_LEAD_MM = (4.0, 8.0, 12.0, 16.0, 20.0, 25.0, 30.0)
+"""How much farther a ray lead may run out to carry its label (paper mm), nearest first."""
+RUN_PAST_MM = 3.0  # the longer lead runs on this far past its label's leader
+
+
+def _on_longer_lead(points: tuple[P2, ...], label: tuple[str, ...], text_h: float,
+                    placer: Placer, keep_off: Sequence[tuple[P2, P2]] | None) -> list[Entity]:
+    """The lead-out (else the lead-in) run on past the lines around the part to where its
+    label finds room, through no text and no view: the added chain line and the label, or
+    nothing. A ray line crossing dimension and extension lines reads as it did before. The
+    leader leaves the lead ``RUN_PAST_MM`` short of its new end, so the ray does not seem to
+    turn into the leader."""
+    if len(points) < 3:
+        return []
+    for extra in LONGER_LEAD_MM:
+        for end, inner in ((points[-1], points[-2]), (points[0], points[1])):
+            out_dir = unit(sub(end, inner))
+            tip, far = add(end, mul(out_dir, extra)), add(end, mul(out_dir, extra + RUN_PAST_MM))
+            if (placer.hits_box(end, far) or placer.crosses_region(end, far)
+                    or not placer.inside((far[0], far[1], far[0], far[1]))):
+                continue
+            trial = placer.copy()
+            trial.add_segment(end, far)
+            lead = _reference_leader([tip], label, text_h, trial, keep_off, DISTANCES_MM)
+            if lead is not None:
+                placer.adopt(trial)
+                return [Polyline((end, far), line_type=LineType.CENTER, width=Width.NARROW,
+                                 layer=Layer.RAY), lead]
+    return []
+
+
+def _reference_leader(tips: Sequence[P2], lines: tuple[str, ...], text_h: float, placer: Placer,
+                      keep_off: Sequence[tuple[P2, P2]] | None, distances: tuple[float, ...]
+                      ) -> Leader | None:
+    """A reference note on a leader (no arrow) from the first tip that finds room (``leader``
+    with ``keep_off``); None when none does."""
+    for tip in tips:
+        lead = leader(tip, lines, text_h=text_h, placer=placer, arrow=False, distances=distances,
+                      keep_off=keep_off)
+        if lead is not None:
+            return lead
+    return None

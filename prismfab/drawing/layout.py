@@ -60,7 +60,8 @@ def _finish(main_started: annotate.Started, side_started: annotate.Started, text
     sb = bbox(side, text_h)
     assert sb is not None  # both views always draw an outline
     keep_going = None if room is None else _room_check(main_started, sb, text_h, room)
-    main = annotate.main_finish(main_started, keep_going=keep_going)
+    main = annotate.main_finish(main_started, keep_going=keep_going, room=None if room is None
+                                else lambda ents: _room_left(ents, sb, text_h, room))
     if main is None:
         return None
     main, main_left = overlap.resolve(main, text_h, limit=_room_left(main, sb, text_h, room),

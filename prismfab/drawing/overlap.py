@@ -24,7 +24,7 @@ from prismfab.drawing.sheet import (
 from prismfab.drawing.spots import ANGLE_REACH_MM, SLIDE_BEYOND_MM, STEP_MM, move, within
 from prismfab.drawing.textbox import (
     CLEAR_MM, EPS, HARD, INK_H, INK_MM, Box, angle_box, any_through, arc_pieces, box_hits,
-    boxes_overlap, clear, dim_box, extensions, footprint, outline_pieces, own_lines, segments,
+    boxes_overlap, clear, dim_box, extensions, footprint, misread, outline_pieces, own_lines, segments,
     segments_near, text_box,
 )
 
@@ -316,7 +316,9 @@ def _room_within(limit: Rect | None, tried: Rect | None) -> bool:
 def _badness(e: Entity, box: Box, text_h: float, bare: list[Box], outline: list[tuple[P2, P2]],
              lines: list[tuple[P2, P2]], callouts: list[Box]) -> float:
     """How badly a dimension text stands: 0 when clear; infinite on text or the outline; else
-    the lines through its box plus the callouts its own arc or run-on runs through."""
+    the lines through its box plus the callouts its own arc or run-on runs through, plus
+    ``misread`` (an angle text off its arc, a text stacked on another), so such a text moves
+    to a clear spot when there is one."""
     if not clear(box, bare, outline, None, pad=INK_MM):
         return math.inf
     own = own_lines(e, text_h)
@@ -324,4 +326,6 @@ def _badness(e: Entity, box: Box, text_h: float, bare: list[Box], outline: list[
         return math.inf
     padded = box.grown(INK_MM)
     return (sum(box_hits(padded, p, q) for p, q in segments_near(lines, padded.hull()))
-            + sum(any(box_hits(o, p, q) for p, q in own) for o in callouts))
+            + sum(any(box_hits(o, p, q) for p, q in own) for o in callouts)
+            + misread(e, box, bare, text_h))
+

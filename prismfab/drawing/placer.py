@@ -11,6 +11,7 @@ __all__ = ["Placer", "segments_cross"]
 
 P2 = tuple[float, float]
 NEAR_MM = 1e-6  # margin of the bounding-box pre-check, far above rounding of paper mm
+KEEP_OFF_FROM_MM = 2.5  # how far along a leg its clearance from kept-off lines is measured
 
 
 class _Arrays(NamedTuple):
@@ -48,6 +49,11 @@ class Placer:
         other.regions = list(self.regions)
         other._reach = list(self._reach)
         return other
+
+    def adopt(self, other: Placer) -> None:
+        """Take over the obstacles of ``other`` (a copy on which a placement was tried)."""
+        self.boxes, self.segments, self.regions = other.boxes, other.segments, other.regions
+        self._reach, self._cache = other._reach, None
 
     def add_region(self, polygon: Iterable[P2]) -> None:
         """A view outline: text may not stand inside it unless asked to."""
@@ -192,6 +198,17 @@ class Placer:
         """For each segment: it touches no text box, crosses no line, and (unless
         ``cross_views``) neither starts or ends in a view nor crosses one (see ``hits_box``,
         ``crosses_segments``, ``crosses_region``)."""
+        return [c == 0 for c in self.leg_crossings(legs, cross_views=cross_views)]
+
+    def leg_crossings(self, legs: Sequence[tuple[P2, P2]], *, cross_views: bool,
+                      keep_off: Sequence[tuple[P2, P2]] = (), clear_mm: float = 0.0
+                      ) -> list[int | None]:
+        """For each segment: None when it touches a text box, comes nearer than ``clear_mm``
+        to one of ``keep_off`` (or crosses it) or (unless ``cross_views``) starts or ends in a
+        view or crosses one; else how many lines already placed it crosses (``legs_clear``
+        asks for none). The clearance is measured from ``KEEP_OFF_FROM_MM`` along each
+        segment on, so a leg may start on a line of ``keep_off`` (a leader on the ray path).
+        """
         import numpy as np
 
         from prismfab.drawing.screen import boxes_hit_segments, points_in_polygon, segments_cross
@@ -204,14 +221,18 @@ class Placer:
         bad = np.zeros(len(legs), dtype=bool)
         if len(placed):
             bad |= boxes_hit_segments(placed, a).any(axis=0)
-        if len(segs):
-            bad |= segments_cross(a, segs).any(axis=1)
+        count = segments_cross(a, segs).sum(axis=1) if len(segs) else np.zeros(len(legs), int)
+        if len(keep_off):
+            off = np.array([(*p, *q) for p, q in keep_off], dtype=float)
+            bad |= segments_cross(a, off).any(axis=1)
+            if clear_mm > 0:
+                bad |= (_gaps(_from(a, KEEP_OFF_FROM_MM), off) < clear_mm).any(axis=1)
         if not cross_views:
             for r, e in zip(self.regions, edges, strict=True):
                 bad |= points_in_polygon(r, a[:, 0], a[:, 1])
                 bad |= points_in_polygon(r, a[:, 2], a[:, 3])
                 bad |= segments_cross(a, e).any(axis=1)
-        return [not v for v in bad]
+        return [None if b else int(c) for b, c in zip(bad, count, strict=True)]
 
     def crosses_many(self, segments: Sequence[tuple[P2, P2]]) -> list[bool]:
         """``crosses_segments(p, q)`` for many segments at once."""
@@ -242,6 +263,36 @@ class Placer:
             return False
         return ignore_segments or not any(box_hits_segment(box, p, q)
                                           for p, q in self.near_segments(box))
+
+
+def _from(segs: Any, start_mm: float) -> Any:
+    """(N, 4) segments with their first ``start_mm`` cut off (at least half of each kept)."""
+    import numpy as np
+
+    d = segs[:, 2:] - segs[:, :2]
+    n = np.hypot(d[:, 0], d[:, 1])
+    t = np.minimum(start_mm / np.maximum(n, 1e-12), 0.5)[:, None]
+    return np.hstack([segs[:, :2] + d * t, segs[:, 2:]])
+
+
+def _gaps(first: Any, second: Any) -> Any:
+    """(F, S) least distances between segments (paper mm); 0 where they cross."""
+    import numpy as np
+
+    from prismfab.drawing.screen import segments_cross
+
+    def to_segments(px: Any, py: Any, segs: Any) -> Any:  # points (F, 1) to segments (1, S)
+        ax, ay, bx, by = (segs[:, k][None, :] for k in range(4))
+        dx, dy = bx - ax, by - ay
+        n2 = np.maximum(dx * dx + dy * dy, 1e-24)
+        t = np.clip(((px - ax) * dx + (py - ay) * dy) / n2, 0.0, 1.0)
+        return np.hypot(ax + t * dx - px, ay + t * dy - py)
+
+    gaps = np.minimum(to_segments(first[:, 0:1], first[:, 1:2], second),
+                      to_segments(first[:, 2:3], first[:, 3:4], second))
+    gaps = np.minimum(gaps, to_segments(second[:, 0:1], second[:, 1:2], first).T)
+    gaps = np.minimum(gaps, to_segments(second[:, 2:3], second[:, 3:4], first).T)
+    return np.where(segments_cross(first, second), 0.0, gaps)
 
 
 def _contains(polygon: tuple[P2, ...], p: P2) -> bool:

@@ -17,7 +17,7 @@ from prismfab.drawing.geom import Rect, text_width_mm
 from prismfab.drawing.placer import segments_cross
 from prismfab.drawing.sheet import AlignedDim, AngularDim, Entity, LinearDim
 from prismfab.drawing.textbox import (
-    CLEAR_MM, EPS, INK_H, INK_MM, Box, any_through, arc_pieces, box_hits, clear, own_lines,
+    CLEAR_MM, EPS, INK_H, INK_MM, Box, any_through, arc_pieces, box_hits, clear, misread, own_lines,
     segments_hull, segments_near, text_box,
 )
 
@@ -62,7 +62,8 @@ def move(e: Entity, text_h: float, others: list[Box], outline: list[tuple[P2, P2
         own = own_lines(cand, text_h)
         arc = list(arc_pieces(cand)) if isinstance(cand, AngularDim) else []
         box_lines = [lines[k] for k in kl]
-        if (clear(box, [others[k] for k in kb], box_outline, box_lines)
+        soft = misread(cand, box, box_bare, text_h)
+        if (soft == 0 and clear(box, [others[k] for k in kb], box_outline, box_lines)
                 and not any_through(others, own)
                 and not any_through([box.grown(CLEAR_MM)], arc)
                 and not (own and _any_cross(own, segments_near(lines, segments_hull(own))))
@@ -74,7 +75,7 @@ def move(e: Entity, text_h: float, others: list[Box], outline: list[tuple[P2, P2
             continue  # its own arc or run-on through text
         padded = box.grown(INK_MM)
         bad = (sum(box_hits(padded, p, q) for p, q in segments_near(box_lines, padded.hull()))
-               + sum(any_through([o], own) for o in callouts))
+               + sum(any_through([o], own) for o in callouts) + soft)
         if (bad < worse_than and (best is None or bad < best[0])
                 and not any_through([padded], arc)
                 and (limit is None or within(bbox([cand], text_h), limit))):

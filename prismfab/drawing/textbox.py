@@ -226,3 +226,44 @@ def footprint(e: Entity, text_h: float
     if isinstance(e, AlignedDim | LinearDim):
         return dim_box(e, text_h).hull(), list(segments(e, text_h))
     return None, []
+
+
+ARC_GAP_MM = 4.0
+"""How far beyond its arc an angle's text may stand before it reads as standing apart from it
+(paper mm, from the arc to the nearest point of the text box)."""
+STACK_GAP = 0.6
+"""Two parallel text lines of different dimensions closer than this many text heights, one over
+the other, read as one two-line value."""
+
+
+def misread(e: Entity, box: Box, others: Sequence[Box], text_h: float) -> float:
+    """Half a line's badness for each way a clear dimension text may still be misread: an angle
+    on extended legs whose text stands more than ``ARC_GAP_MM`` beyond its arc, a text stacked
+    on another text line (``stacked``)."""
+    return 0.5 * off_arc(e, box) + 0.5 * any(stacked(box, o, text_h) for o in others)
+
+
+def off_arc(e: Entity, box: Box) -> bool:
+    """True for an angle on extended legs (its arc outside the section) whose text box stands
+    more than ``ARC_GAP_MM`` beyond the arc."""
+    if not isinstance(e, AngularDim):
+        return False
+    vx, vy = e.vertex
+    if math.hypot(e.p1[0] - vx, e.p1[1] - vy) > e.radius_mm:
+        return False  # inside the section, between the faces themselves
+    x0, y0, x1, y1 = box.hull()
+    near = math.hypot(min(max(vx, x0), x1) - vx, min(max(vy, y0), y1) - vy)
+    return near - e.radius_mm > ARC_GAP_MM
+
+
+def stacked(a: Box, b: Box, text_h: float) -> bool:
+    """True when two text lines (boxes wider than tall) run parallel, overlap along their
+    length and stand less than ``STACK_GAP`` text heights apart across it."""
+    if a.half_w < 1.5 * a.half_h or b.half_w < 1.5 * b.half_h:
+        return False  # a letter in a circle, a datum box: not a text line
+    turn = (a.rot_deg - b.rot_deg) % 180.0
+    if min(turn, 180.0 - turn) > 1.0:
+        return False
+    along, across = a.local(b.centre)
+    return (abs(along) < a.half_w + b.half_w - text_h
+            and abs(across) < a.half_h + b.half_h + STACK_GAP * text_h)
