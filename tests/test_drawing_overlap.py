@@ -258,3 +258,97 @@ def test_wedge_outside_angle_texts_stand_by_their_arc(starter_sheets: dict[str, 
         far = [e.text for e in _views(sheet) if isinstance(e, AngularDim)
                and off_arc(e, angle_box(e, sheet.dimension_text_mm))]
         assert far == [], name
+
+
+def _square_below_left() -> Polyline:
+    """A section whose corner at (0, 0) has its outside angle in the first quadrant."""
+    return Polyline(((0.0, 0.0), (-30.0, 0.0), (-30.0, -30.0), (0.0, -30.0)), closed=True,
+                    layer=Layer.OUTLINE)
+
+
+def test_hang_brings_a_far_angle_text_back_to_its_arc() -> None:
+    """An angle on extended legs whose text stands far beyond its arc on free paper comes back
+    next to the arc (common practice: the value reads with the arc it belongs to)."""
+    from prismfab.drawing.hang import hang_angle_texts
+    from prismfab.drawing.textbox import angle_box, off_arc
+
+    angle = AngularDim((0.0, 0.0), (0.3, 0.0), (0.0, 0.3), 6.0, 90.0, "90° ±5′", (18.0, 18.0))
+    ents = [_square_below_left(), angle]
+    assert off_arc(angle, angle_box(angle, TEXT_H))  # the check below is not vacuous
+    out = hang_angle_texts(ents, ents, TEXT_H)
+    moved = out[1]
+    assert isinstance(moved, AngularDim) and len(out) == 2  # no leader needed
+    assert not off_arc(moved, angle_box(moved, TEXT_H))
+    assert moved.radius_mm - angle.radius_mm <= 6.0
+    assert overlap.collisions(out, TEXT_H) == []
+
+
+def test_hang_keeps_a_text_that_stands_by_its_arc() -> None:
+    """A text next to its first arc is left where it is (nothing to gain)."""
+    from prismfab.drawing.hang import hang_angle_texts
+
+    angle = AngularDim((0.0, 0.0), (0.3, 0.0), (0.0, 0.3), 6.0, 90.0, "90° ±5′", (11.0, 8.0))
+    ents = [_square_below_left(), angle]
+    assert hang_angle_texts(ents, ents, TEXT_H) == ents
+
+
+def test_hang_puts_a_boxed_in_angle_text_on_a_leader_from_its_arc() -> None:
+    """Where text boxes fill the paper next to the arc and the arc may not grow through them,
+    the value stands a little farther out on a thin leader that starts on the arc, ends at
+    the text's edge, crosses no text and does not run along another line."""
+    from prismfab.drawing.geom import text_width_mm
+    from prismfab.drawing.hang import hang_angle_texts
+    from prismfab.drawing.sheet import Leader, Text
+    from prismfab.drawing.textbox import INK_H, Box, box_hits
+
+    angle = AngularDim((0.0, 0.0), (0.3, 0.0), (0.0, 0.3), 6.0, 90.0, "90° ±5′", (30.0, 30.0))
+    # Fixed words the arc cannot grow through on one side, a thin line close round the arc
+    # on the other: no text fits next to the arc.
+    words = [Text((10.5 * math.cos(0.3), 10.5 * math.sin(0.3)), "XX", TEXT_H, h_align="center",
+                  v_align="middle")]
+    ring = Polyline(tuple((11.0 * math.cos(a), 11.0 * math.sin(a))
+                          for a in (0.7 + 0.1 * k for k in range(10))), layer=Layer.DIMENSION)
+    ents = [_square_below_left(), angle, *words, ring]
+    out = hang_angle_texts(ents, ents, TEXT_H)
+    moved = out[1]
+    assert isinstance(moved, AngularDim)
+    leads = [e for e in out[len(ents):] if isinstance(e, Leader)]
+    assert len(leads) == 1 and not leads[0].arrow and leads[0].lines == ()
+    start, end = leads[0].points
+    assert abs(math.dist(start, moved.vertex) - moved.radius_mm) < 1e-6  # on the arc
+    box = Box(moved.text_pos, text_width_mm(moved.text, TEXT_H) / 2, INK_H * TEXT_H / 2)
+    x0, y0, x1, y1 = box.hull()
+    assert min(abs(end[0] - x0), abs(end[0] - x1), abs(end[1] - y0), abs(end[1] - y1)) < 1e-6
+    assert math.dist(start, end) <= 15.0  # a short leader
+    assert math.dist(moved.text_pos, moved.vertex) < math.dist(angle.text_pos, angle.vertex)
+    assert not any(box_hits(b, start, end) for _, b in overlap.text_items(out, TEXT_H)
+                   if b.centre != moved.text_pos)
+    assert overlap.collisions(out, TEXT_H) == []
+
+
+def test_runs_along_sees_a_line_close_beside_and_parallel() -> None:
+    """A leader close beside a nearly parallel line reads as one with it; crossing or far
+    apart does not."""
+    from prismfab.drawing.hang import _runs_along
+
+    lead = ((0.0, 0.0), (10.0, 0.0))
+    assert _runs_along(lead, [((-2.0, 1.0), (12.0, 1.5))])
+    assert not _runs_along(lead, [((-2.0, 4.0), (12.0, 4.0))])  # far apart
+    assert not _runs_along(lead, [((5.0, -5.0), (5.0, 5.0))])  # crossing
+
+
+def test_fold_auxiliary_angle_hangs_on_a_leader_from_its_arc(
+        starter_sheets: dict[str, Sheet]) -> None:
+    """The fold starter's auxiliary apex angle, boxed in by its faces' dimensions, reads with
+    its arc through a leader that starts on the arc (it once stood 12 mm off it alone)."""
+    from prismfab.drawing.sheet import Leader
+    from prismfab.drawing.textbox import angle_box, off_arc
+
+    views = _views(next(s for n, s in starter_sheets.items() if n.startswith("fold:")))
+    angles = [e for e in views if isinstance(e, AngularDim) and e.text.startswith("(")]
+    assert angles
+    for e in angles:
+        if off_arc(e, angle_box(e, TEXT_H)):
+            assert any(isinstance(lead, Leader) and not lead.lines
+                       and abs(math.dist(lead.points[0], e.vertex) - e.radius_mm) < 1e-6
+                       for lead in views), e.text

@@ -8,8 +8,8 @@ from collections.abc import Sequence
 from prismfab.drawing import fonts
 
 __all__ = [
-    "add", "box_hits_segment", "boxes_overlap", "clip_segment", "dist", "mul", "norm", "perp_cw", "rect_of_text",
-    "sub", "text_width_mm", "unit",
+    "add", "box_hits_segment", "boxes_overlap", "clip_segment", "dist", "dist_to_segment", "mul",
+    "norm", "perp_cw", "rect_of_text", "sub", "text_width_mm", "unit",
 ]
 
 P2 = tuple[float, float]
@@ -104,6 +104,14 @@ def run_on(d1: P2, d2: P2, text_pos: P2, half_w: float) -> tuple[P2, P2] | None:
     if along + half_w > length:
         return d2, add(d1, mul(u, along + half_w))
     return None
+
+
+def dist_to_segment(c: P2, p: P2, q: P2) -> float:
+    """Distance from point ``c`` to segment p-q (paper mm)."""
+    dx, dy = q[0] - p[0], q[1] - p[1]
+    n2 = dx * dx + dy * dy
+    t = 0.0 if n2 < 1e-12 else max(0.0, min(1.0, ((c[0] - p[0]) * dx + (c[1] - p[1]) * dy) / n2))
+    return math.hypot(p[0] + t * dx - c[0], p[1] + t * dy - c[1])
 
 
 def polygon_centroid(points: Sequence[P2]) -> P2:

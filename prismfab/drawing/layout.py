@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from prismfab.drawing import annotate, overlap, tables
+from prismfab.drawing import annotate, hang, overlap, tables
 from prismfab.drawing.extent import bbox, translate, union
 from prismfab.drawing.frame import frame, revision_table, title_block
 from prismfab.drawing.geom import Rect
@@ -64,8 +64,13 @@ def _finish(main_started: annotate.Started, side_started: annotate.Started, text
                                 else lambda ents: _room_left(ents, sb, text_h, room))
     if main is None:
         return None
-    main, main_left = overlap.resolve(main, text_h, limit=_room_left(main, sb, text_h, room),
-                                      memo=main_started.memo)
+    limit = _room_left(main, sb, text_h, room)
+    main, main_left = overlap.resolve(main, text_h, limit=limit, memo=main_started.memo)
+    hung = hang.hang_angle_texts(main, main_started.entities, text_h, limit=limit)
+    if hung != main:
+        left = len(overlap.collisions(hung, text_h))
+        if left <= main_left:
+            main, main_left = hung, left
     mb = bbox(main, text_h)
     assert mb is not None and sb is not None  # both views always draw an outline
     # The second view sees the part from +X: first angle puts it left of the section, third right.

@@ -17,7 +17,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
 from prismfab.drawing.extent import text_boxes
-from prismfab.drawing.geom import Rect, text_width_mm
+from prismfab.drawing.geom import Rect, dist_to_segment, text_width_mm
 from prismfab.drawing.sheet import (
     AlignedDim, AngularDim, Circle, Entity, Layer, Leader, LinearDim, Polyline, Text,
 )
@@ -28,7 +28,7 @@ from prismfab.drawing.textbox import (
     segments_near, text_box,
 )
 
-__all__ = ["Box", "collisions", "footprint", "resolve"]
+__all__ = ["Box", "collisions", "footprint", "resolve", "text_items", "thin_lines"]
 
 P2 = tuple[float, float]
 
@@ -132,6 +132,18 @@ def collisions(ents: Sequence[Entity], text_h: float) -> list[str]:
     return out
 
 
+def text_items(ents: Sequence[Entity], text_h: float) -> list[tuple[int, Box]]:
+    """Every text box of a view (dimension and angle texts, letters, datum boxes, callouts)
+    with the index of the entity it belongs to."""
+    return [(it.index, it.box) for it in _items(ents, text_h)]
+
+
+def thin_lines(ents: Sequence[Entity], text_h: float) -> list[tuple[int, P2, P2]]:
+    """Every thin line piece of a view (not the part's lines, not text frames) with the index
+    of the entity that draws it."""
+    return [(j, p, q) for j, p, q, _ in _thin_pieces(ents, text_h, _items(ents, text_h))]
+
+
 Piece = tuple[int, P2, P2, tuple[float, float, float, float]]
 """A thin line piece: the index of the entity that draws it, its ends, its bounding box."""
 
@@ -162,16 +174,8 @@ def _item_hit(e: Entity, box: Box, p: P2, q: P2) -> bool:
     """True when line p-q runs through the text item: a face letter's circle by its disc (a
     leader ends on the circle), any other by its box."""
     if isinstance(e, Circle):
-        return _dist_to_segment(e.centre, p, q) < e.radius_mm - 1e-3
+        return dist_to_segment(e.centre, p, q) < e.radius_mm - 1e-3
     return box_hits(box, p, q)
-
-
-def _dist_to_segment(c: P2, p: P2, q: P2) -> float:
-    dx, dy = q[0] - p[0], q[1] - p[1]
-    n2 = dx * dx + dy * dy
-    along = ((c[0] - p[0]) * dx + (c[1] - p[1]) * dy) / n2 if n2 >= EPS * EPS else 0.0
-    t = max(0.0, min(1.0, along))
-    return math.hypot(p[0] + t * dx - c[0], p[1] + t * dy - c[1])
 
 
 def _name(e: Entity) -> str:
