@@ -356,6 +356,12 @@ class Ghost:
         return 2 if self.second_face else 1
 
     @property
+    def where(self) -> str:
+        """The reflecting faces in words, e.g. "P1 face C" or "P2 face A and then P1 face B"."""
+        first = f"{self.prism} face {self.face}"
+        return first if not self.second_face else f"{first} and then {self.second_prism} face {self.second_face}"
+
+    @property
     def path(self) -> str:
         """The reflecting faces in order, e.g. "P1 C" or "P2 A, then P1 B"."""
         first = f"{self.prism} {self.face}"

@@ -148,11 +148,9 @@ def warnings(sol) -> list[str]:  # type: ignore[no-untyped-def]
             out.append(f"{pr} face {lab}: antireflection coating at {hi:.1f} deg incidence "
                        f"(above {AR_AOI_MAX_DEG:g} deg)")
     for g in sol.performance.ghosts:
-        where = f"{g.prism} face {g.face}" if g.order == 1 else \
-            f"{g.prism} face {g.face} and then {g.second_prism} face {g.second_face}"
-        said = any(where in w and "reflection" in w for w in out)
+        said = any(g.where in w and "reflection" in w for w in out)
         if g.warning and not said:
-            out.append(f"back reflection from {where} returns "
+            out.append(f"back reflection from {g.where} returns "
                        f"{g.angle_to_source_mrad:.2f} mrad from the source ({100 * g.power_fraction:.3g} % "
                        "of the power): tilt the face; laser safety per IEC 60825-1 / ANSI Z136.1")
     return list(dict.fromkeys(out))

@@ -132,22 +132,14 @@ def _verify(tab: K.Tables, r: Rays, key: Key, target: F64) -> tuple[NDArray[np.b
             for x, lo, hi in zip(xs, (lo_e, lo_h), (hi_e, hi_h), strict=True):
                 ok &= np.greater_equal(x, lo, out=test)
                 ok &= np.less_equal(x, hi, out=test)
-    if r.uniform is None:
-        r.uniform = _uniform(r)
-    if r.uniform is None or r.uniform[0] != m or (m < 0 and r.uniform[1] != last):
+    same = r.known_uniform()
+    if same is None or same[0] != m or (m < 0 and same[1] != last):
         ok = (r.medium == m) if ok is None else (ok & (r.medium == m))
         if m < 0:
             ok &= r.last == last
     if m < 0:
         ok = _clear_of_other_prisms(tab, r, p, f, last, t, target, ok)
     return ok, dn, t
-
-
-def _uniform(r: Rays) -> tuple[int, int] | None:
-    """(medium, last) when all rays share them, else None."""
-    if r.n and r.medium.min() == r.medium.max() and r.last.min() == r.last.max():
-        return int(r.medium[0]), int(r.last[0])
-    return None
 
 
 def _clear_of_other_prisms(tab: K.Tables, r: Rays, p: int, f: int, last: int, t: F64, hit: F64,
@@ -190,9 +182,8 @@ def _event(tab: K.Tables, r: Rays, out: Out, k: int, max_events: int, predictor:
     if key is not None and tab.g_rect[int(tab.face_base[key[2]]) + key[3]] is None:
         key = None
     if key is None and predictor.enabled:
-        if r.uniform is None:
-            r.uniform = _uniform(r)
-        if r.uniform is not None and r.uniform[0] < 0 and K.all_leave(tab, r.o, r.d, r.uniform[1]):
+        same = r.known_uniform()
+        if same is not None and same[0] < 0 and K.all_leave(tab, r.o, r.d, same[1]):
             r.finish(out, None, STATUS_EXITED, k)  # what the full search would find, proven at once
             return False
     n = r.n
@@ -298,9 +289,8 @@ def _lane_inputs(tab: K.Tables, r: Rays, key: Key, k: int,
     m, last, p, f = key
     if r.reflect_at is not None and bool((r.reflect_at == k).any()):
         return None
-    if r.uniform is None:
-        r.uniform = _uniform(r)
-    if r.uniform is None or r.uniform[0] != m or (m < 0 and r.uniform[1] != last):
+    same = r.known_uniform()
+    if same is None or same[0] != m or (m < 0 and same[1] != last):
         return None
     rows = [r.opl] + [x for pair in r.jones for x in pair]
     if not (all(_lane.row_ok(x, writeable=True) for x in rows) and _lane.block_ok(r.o)

@@ -158,24 +158,8 @@ class Rays:
         o = pool.get("o", 3, n)
         d = pool.fresh("d", None, 3, n)
         u = pool.fresh("u", None, 3, n)
-        jones: Jones = []
         e = None if fields is None else fields[sl]
-        if e is not None and _lane.available() and _lane_start(origins[sl], directions[sl], e, o, d, u, jones, pool):
-            pass  # copied and set up in one compiled pass
-        elif e is None:
-            np.copyto(o, origins[sl].T)
-            np.copyto(d, directions[sl].T)
-            basis_rows(d, u)
-            for m in range(2):
-                jones.append((pool.fresh(f"a{m}", None, n=n), pool.fresh(f"b{m}", None, n=n)))
-                jones[m][0].fill(1.0 - m)
-                jones[m][1].fill(float(m))
-        elif _copy_rows(origins[sl], directions[sl], o, d) and (_has_phase(e) or not _linear_start(e, u, jones, pool)):
-            basis_rows(d, u)
-            v = _cross_rows(d, u)
-            a = e[:, 0] * u[0] + e[:, 1] * u[1] + e[:, 2] * u[2]
-            b = e[:, 0] * v[0] + e[:, 1] * v[1] + e[:, 2] * v[2]
-            jones.append((a, b))
+        jones = _start_jones(origins[sl], directions[sl], e, o, d, u, pool)
         medium = pool.get("medium", n=n, dtype=np.int64)
         medium.fill(-1)
         last = pool.get("last", n=n, dtype=np.int64)
@@ -185,6 +169,13 @@ class Rays:
         ids = slice(0, n) if local else sl
         return cls(ids=ids, o=o, d=d, u=u, jones=jones, medium=medium, last=last, opl=opl,
                    nglass=nglass, reflect_at=reflect_at, pool=pool, uniform=(-1, -1))
+
+    def known_uniform(self) -> tuple[int, int] | None:
+        """(medium, last) when all rays share them (cached in ``uniform``), else None."""
+        if self.uniform is None and self.n and self.medium.min() == self.medium.max() \
+                and self.last.min() == self.last.max():
+            self.uniform = (int(self.medium[0]), int(self.last[0]))
+        return self.uniform
 
     def crossed(self, prism: int, *, entering: bool) -> None:
         """Every ray has just crossed a face of ``prism``: into it, or out of it into air."""
@@ -318,11 +309,33 @@ class Rays:
         out.fields[:, ids] = field
 
 
-def _copy_rows(origins: F64, directions: F64, o: F64, d: F64) -> bool:
-    """Bundle rows (n, 3) to component rows (3, n); True."""
+def _start_jones(origins: F64, directions: F64, e: NDArray[np.complex128] | None, o: F64, d: F64,
+                 u: F64, pool: Pool) -> Jones:
+    """Fill component rows ``o``, ``d`` and the basis ``u`` of bundle rows; their Jones pairs.
+
+    Unpolarised (``e`` None): two orthogonal states in the basis ``unit(y x d)``. Real fields: the
+    field's own direction is the basis, ``(|e|, 0)`` (compiled in one pass where the lane is
+    built). Fields with a phase, or zero: projected on ``unit(y x d)`` and ``d x u``.
+    """
+    jones: Jones = []
+    if e is not None and _lane.available() and _lane_start(origins, directions, e, o, d, u, jones, pool):
+        return jones
     np.copyto(o, origins.T)
     np.copyto(d, directions.T)
-    return True
+    n = o.shape[1]
+    if e is None:
+        basis_rows(d, u)
+        for m in range(2):
+            jones.append((pool.fresh(f"a{m}", None, n=n), pool.fresh(f"b{m}", None, n=n)))
+            jones[m][0].fill(1.0 - m)
+            jones[m][1].fill(float(m))
+    elif _has_phase(e) or not _linear_start(e, u, jones, pool):
+        basis_rows(d, u)
+        v = _cross_rows(d, u)
+        a = e[:, 0] * u[0] + e[:, 1] * u[1] + e[:, 2] * u[2]
+        b = e[:, 0] * v[0] + e[:, 1] * v[1] + e[:, 2] * v[2]
+        jones.append((a, b))
+    return jones
 
 
 def _lane_start(origins: F64, directions: F64, e: NDArray[np.complex128], o: F64, d: F64, u: F64,

@@ -40,7 +40,7 @@ from prismfab.optics.trace import (
     trace,
 )
 
-__all__ = ["first_order_ghosts", "ghost_warning", "ghosts", "second_order_ghosts"]
+__all__ = ["ghost_warning", "ghosts"]
 
 
 def ghosts(
@@ -74,25 +74,6 @@ def ghosts(
         return out
     second = _trace_ghosts(system, pairs, wavelength_nm, index_of, max_events)
     return out + _ghosts_of(second, pairs, wavelength_nm, back_reflection_mrad, system)
-
-
-def first_order_ghosts(
-    system: System, chief: TraceResult, ray: int, *, wavelength_nm: float,
-    back_reflection_mrad: float, index_of: IndexFunction, max_events: int = 16,
-) -> tuple[Ghost, ...]:
-    """Ghosts from every refracting face crossed by ray ``ray`` of ``chief`` (see ``ghosts``)."""
-    return ghosts(system, chief, ray, wavelength_nm=wavelength_nm, back_reflection_mrad=back_reflection_mrad,
-                  index_of=index_of, max_events=max_events, order=1)
-
-
-def second_order_ghosts(
-    system: System, chief: TraceResult, ray: int, *, wavelength_nm: float,
-    back_reflection_mrad: float, index_of: IndexFunction, max_events: int = 16,
-) -> tuple[Ghost, ...]:
-    """Only the second-order ghosts of ray ``ray`` of ``chief`` (see ``ghosts``)."""
-    both = ghosts(system, chief, ray, wavelength_nm=wavelength_nm, back_reflection_mrad=back_reflection_mrad,
-                  index_of=index_of, max_events=max_events, order=2)
-    return tuple(g for g in both if g.order == 2)
 
 
 def _trace_ghosts(system: System, reflect: list[tuple[int, ...]], wavelength_nm: float,
@@ -155,10 +136,8 @@ def _destination(status: int, angle_to_source_mrad: float, cos_forward: float, l
 
 def ghost_warning(ghost: Ghost, limit_mrad: float) -> str:
     """One sentence about a ghost that returns to the source."""
-    where = f"{ghost.prism} face {ghost.face}" if ghost.order == 1 else \
-        f"{ghost.prism} face {ghost.face} and then {ghost.second_prism} face {ghost.second_face}"
     return (
-        f"the reflection from {where} ({ghost.power_fraction * 100:.3g} % "
+        f"the reflection from {ghost.where} ({ghost.power_fraction * 100:.3g} % "
         f"of the input) returns {ghost.angle_to_source_mrad:.3g} mrad from the reversed input beam, "
         f"inside the {limit_mrad:g} mrad back-reflection limit: tilt that face by 0.5-2 deg, "
         "coat it, or add an isolator; treat the return as a stray beam under IEC 60825-1 / ANSI Z136.1"
